@@ -1,0 +1,7 @@
+"""Unit models, one module per kind; ``KINDS`` is the catalogue's list of entries."""
+
+from __future__ import annotations
+
+from engine.catalogue import UnitKind
+
+KINDS: tuple[UnitKind, ...] = ()

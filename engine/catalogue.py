@@ -137,6 +137,8 @@ class UnitKind:
     port_groups: tuple[PortGroup, ...] = ()
     needs_fuel: bool = False
     description: str = ""
+    alternatives: tuple[tuple[str, ...], ...] = ()
+    """Groups of optional roles of which at least one must be bound (mass or volume flow)."""
     _role_index: dict[str, Role] = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -223,6 +225,13 @@ class UnitKind:
             if spec.default is None and spec.name not in parameters:
                 problems.append(
                     Problem(f"parameter {spec.name!r}", "required (no default) but not given")
+                )
+        for group in self.alternatives:
+            if not any(name in bound for name in group):
+                problems.append(
+                    Problem(
+                        f"roles {' or '.join(repr(n) for n in group)}", "bind at least one of them"
+                    )
                 )
         if self.needs_fuel and not has_fuel:
             problems.append(Problem("fuel", f"a {self.name} burns a fuel; name one"))

@@ -1,0 +1,1 @@
+"""Cross-cutting service pieces: settings, database, problem details."""

@@ -1,0 +1,1 @@
+"""The compute pipeline: the work queue of dirty spans and the worker."""

@@ -1,0 +1,1 @@
+"""Plants, fuels, tags, units and role bindings; the plant file."""

@@ -1,0 +1,1 @@
+"""Readings: REST ingest (row and columnar) and the bulk upsert."""

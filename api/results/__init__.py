@@ -1,0 +1,1 @@
+"""Computed results per unit, metric and interval."""

@@ -1,0 +1,1 @@
+"""Shift-log CSV uploads and their reports."""

@@ -3,5 +3,9 @@
 from __future__ import annotations
 
 from engine.catalogue import UnitKind
+from engine.units import block, boiler
 
-KINDS: tuple[UnitKind, ...] = ()
+KINDS: tuple[UnitKind, ...] = (
+    boiler.KIND,
+    block.KIND,
+)

@@ -339,7 +339,9 @@ def boiler_direct(
     add(
         -1.0,
         m_fw,
-        steam.from_pt(inputs["feedwater_pressure"], inputs["feedwater_temperature"], _HS),
+        steam.from_pt(
+            _column(inputs, "feedwater_pressure"), _column(inputs, "feedwater_temperature"), _HS
+        ),
     )
     add(+1.0, m_ms, steam.from_pt(p_ms, t_ms, _HS))
     m_in, m_out = m_fw, m_ms
@@ -356,7 +358,13 @@ def boiler_direct(
         valid = np.zeros(n, dtype=bool)
     elif spray_bound:
         m_sp = _column(inputs, "spray_flow")
-        add(-1.0, m_sp, steam.from_pt(inputs["spray_pressure"], inputs["spray_temperature"], _HS))
+        add(
+            -1.0,
+            m_sp,
+            steam.from_pt(
+                _column(inputs, "spray_pressure"), _column(inputs, "spray_temperature"), _HS
+            ),
+        )
         m_in = m_in + m_sp
 
     reheat_bound, reheat_complete = _optional_group(inputs, _REHEAT_ROLES)
@@ -368,9 +376,11 @@ def boiler_direct(
         add(
             -1.0,
             m_rh,
-            steam.from_pt(inputs["reheat_in_pressure"], inputs["reheat_in_temperature"], _HS),
+            steam.from_pt(
+                _column(inputs, "reheat_in_pressure"), _column(inputs, "reheat_in_temperature"), _HS
+            ),
         )
-        add(+1.0, m_rh, steam.from_pt(inputs["reheat_out_pressure"], t_rh, _HS))
+        add(+1.0, m_rh, steam.from_pt(_column(inputs, "reheat_out_pressure"), t_rh, _HS))
         t_hot = np.fmax(t_hot, t_rh)
 
     # First law: enthalpy relative to the dead state.

@@ -12,9 +12,10 @@ arrays with :func:`combine` (bitwise or).
 References
 ----------
 .. [1] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley,
-   1996, Sec. 2.5 (entropy generation is never negative), Sec. 3.4 (exergy destruction).
+   1996, Ch. 2 (entropy generation is never negative) and Ch. 3 (exergy destruction).
+   Chapter-level citations; section numbers not checked.
 .. [2] T. J. Kotas, "The Exergy Method of Thermal Plant Analysis", Krieger, 1995,
-   Sec. 1.9 (Carnot efficiency as the bound of a heat engine between two reservoirs).
+   Ch. 1 (Carnot efficiency as the bound of a heat engine between two reservoirs).
 """
 
 from __future__ import annotations
@@ -108,7 +109,7 @@ def negative_entropy_generation(sgen_w_per_k, scale_w_per_k, tolerance) -> np.nd
 
     Notes
     -----
-    The second law requires ``Sgen >= 0`` for every real process (Sec. 2.5 in [1]_);
+    The second law requires ``Sgen >= 0`` for every real process (Ch. 2 in [1]_);
     a measured balance may dip below zero only within its uncertainty.
     """
     sgen = _float_1d(sgen_w_per_k)
@@ -147,7 +148,7 @@ def above_carnot(efficiency, carnot_limit) -> np.ndarray:
     efficiency : numeric
         The efficiency claimed by the measurements. [-]
     carnot_limit : numeric
-        The reversible limit, for a heat engine ``1 - T0 / T_hot`` (Sec. 1.9 in [2]_);
+        The reversible limit, for a heat engine ``1 - T0 / T_hot`` (Ch. 1 in [2]_);
         1 for an exergetic efficiency. NaN (limit unknown) never flags. [-]
 
     Returns

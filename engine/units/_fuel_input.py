@@ -11,7 +11,8 @@ References
 .. [2] J. Szargut, D. R. Morris, F. R. Steward, "Exergy Analysis of Thermal, Chemical
    and Metallurgical Processes", Hemisphere, 1988, Sec. 2.5 (chemical exergy of fuels).
 .. [3] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley, 1996,
-   Sec. 3.5 (chemical exergy; reversible work of a reaction at the dead state).
+   Ch. 3 (chemical exergy: the reversible work of a reaction at the dead state).
+   Chapter-level citation.
 """
 
 from __future__ import annotations
@@ -129,7 +130,7 @@ def fuel_input(inputs: pd.DataFrame, fuel: FuelProperties | None, kind: str) -> 
 
     Reaction term: burning the fuel with air and cooling the products to the dead state
     (water condensed) releases the HHV as heat; the reversible work of that reaction is
-    the chemical exergy (Sec. 3.5 in [3]_). Hence the entropy of the products exceeds
+    the chemical exergy (Ch. 3 in [3]_). Hence the entropy of the products exceeds
     that of the reactants by ``s_r = (ex_ch - HHV) / T0`` per kg of fuel (negative for
     hydrocarbons). With the interim exergy/heating-value ratio of
     :class:`~engine.fuels.FuelProperties` this is exact by construction; composition-based

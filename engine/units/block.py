@@ -10,11 +10,11 @@ References
    (corrected net power and heat rate: fuel heat input over net power). Section number
    from memory.
 .. [2] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley, 1996,
-   Sec. 2.5 (entropy balance), Sec. 3.4 (exergy balance; Gouy-Stodola, Eq. 3.24),
-   Sec. 3.5 (fuel chemical exergy).
+   Ch. 2 (entropy balance), Ch. 3 (exergy balance; Gouy-Stodola, Eq. 3.24; fuel
+   chemical exergy). Chapter-level citations.
 .. [3] T. J. Kotas, "The Exergy Method of Thermal Plant Analysis", Krieger, 1995,
-   Sec. 1.9 (Carnot efficiency as the bound of a heat engine), Sec. 3.6 (rational
-   efficiency of a power plant: net power over fuel exergy).
+   Ch. 1 (Carnot efficiency as the bound of a heat engine), Ch. 2 (rational
+   efficiency: net power over fuel exergy). Chapters from memory.
 """
 
 from __future__ import annotations
@@ -177,7 +177,7 @@ def block_performance(
 
     A heat rate is NaN where its power is not positive (unit not generating).
 
-    Second law: ``F = m_f ex_ch``, ``eta_2 = W_net / F`` (Sec. 3.6 in [3]_) and the exergy
+    Second law: ``F = m_f ex_ch``, ``eta_2 = W_net / F`` ([3]_, Ch. 2) and the exergy
     balance ``exergy_destroyed_and_lost = F - W_net``. The entropy balance on the
     widened boundary, with all fuel energy not leaving as net power leaving as heat at
     T0 and the reaction term ``s_r = (ex_ch - HHV) / T0`` per kg of fuel (see
@@ -188,7 +188,7 @@ def block_performance(
     which equals ``(F - W_net) / T0``: Gouy-Stodola (Eq. 3.24 in [2]_).
 
     Carnot limit: heat reaches the steam cycle at no more than the hottest steam
-    temperature T_hot, so ``eta_1 <= 1 - T0 / T_hot`` (Sec. 1.9 in [3]_). T_hot is the
+    temperature T_hot, so ``eta_1 <= 1 - T0 / T_hot`` ([3]_, Ch. 1). T_hot is the
     hottest bound steam temperature per row, else ``hot_reservoir_temperature_k``,
     else unknown (``carnot_limit`` NaN, never flagged).
 

@@ -14,11 +14,12 @@ References
    Sec. 5-7 (efficiency by the input-output method, output over input). Section numbers
    from memory.
 .. [2] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley, 1996,
-   Sec. 2.5 (entropy balance, control volume), Sec. 3.3 (flow exergy, Eq. 3.13),
-   Sec. 3.4 (exergy balance; Gouy-Stodola, Eq. 3.24), Sec. 3.5 (fuel chemical exergy).
+   Ch. 2 (entropy balance of a control volume), Ch. 3 (flow exergy, Eq. 3.13; exergy
+   balance; Gouy-Stodola, Eq. 3.24; fuel chemical exergy). Equation numbers as in
+   :mod:`engine.exergy`; chapter-level otherwise.
 .. [3] T. J. Kotas, "The Exergy Method of Thermal Plant Analysis", Krieger, 1995,
-   Sec. 3.6 (rational efficiency of a steam generator: exergy gained by the water and
-   steam over the fuel exergy).
+   Ch. 2 (rational efficiency: exergy delivered over exergy supplied, here the exergy
+   gained by the water and steam over the fuel exergy). Chapter from memory.
 .. [4] IAPWS R7-97(2012), IAPWS-IF97 (all water and steam properties, via
    :mod:`engine.steam`).
 """
@@ -271,13 +272,13 @@ def boiler_direct(
         Q_fuel = m_f HHV                      eta_1     = Q_abs / Q_fuel
         Q_loss = Q_fuel - Q_abs               eta_1_lhv = Q_abs / (m_f LHV)
 
-    Exergy balance (Eq. 3.13 and Sec. 3.4 in [2]_; Sec. 3.6 in [3]_)::
+    Exergy balance (Eq. 3.13 in [2]_; [3]_)::
 
         G = sum_out m ex - sum_in m ex,  ex = (h - h0) - T0 (s - s0)
         F = m_f ex_ch                         eta_2 = G / F
         exergy_destroyed_and_lost = F - G
 
-    Entropy balance, independent of the exergy numbers (Sec. 2.5 in [2]_), with the
+    Entropy balance, independent of the exergy numbers (Ch. 2 in [2]_), with the
     losses leaving as heat at T0 and the reaction term ``s_r = (ex_ch - HHV) / T0``
     (the products' entropy minus the reactants' per kg of fuel at the dead state; see
     :func:`engine.units._fuel_input.fuel_input`)::

@@ -4,7 +4,7 @@ Outside references:
 - heat rate = 3.6e6 J/kWh times fuel heat input over power (definition of the watt-hour;
   the trade's heat rate as used in ASME PTC 46), worked by hand below;
 - the Carnot efficiency 1 - T0/T_hot as the bound of any heat engine (Kotas 1995,
-  Sec. 1.9; Bejan, Tsatsaronis & Moran 1996, Sec. 2.5);
+  Ch. 1; Bejan, Tsatsaronis & Moran 1996, Ch. 2; chapters from memory);
 - Gouy-Stodola (Bejan et al. 1996, Eq. 3.24): exergy destroyed plus lost = T0 Sgen, the
   two sides computed by different routes in the model, checked to 1e-9 relative.
 """

@@ -175,7 +175,7 @@ def reheat_boiler_result() -> pd.Series:
         "eta_1_lhv",  # output / input, LHV basis
         "water_exergy_gain_w",  # iapws h, s; Bejan et al. 1996 Eq. 3.13
         "fuel_exergy_w",  # 1.04 * LHV (Szargut et al. 1988, Table 2.4) * m_f
-        "eta_2",  # Kotas 1995 Sec. 3.6: exergy gained / fuel exergy
+        "eta_2",  # rational efficiency (Kotas 1995, Ch. 2): exergy gained / fuel exergy
         "exergy_destroyed_and_lost_w",  # exergy balance
         "sgen_w_per_k",  # entropy balance with iapws entropies
         "lost_work_w",  # Gouy-Stodola, Bejan et al. 1996 Eq. 3.24

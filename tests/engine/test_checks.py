@@ -1,9 +1,9 @@
 """Consistency flags (engine/checks.py).
 
 The bounds themselves are textbook: entropy generation is never negative (second law,
-Bejan, Tsatsaronis & Moran 1996, Sec. 2.5), a first-law efficiency on the HHV basis
-cannot exceed 1 (first law), and a heat engine cannot beat Carnot (Kotas 1995, Sec. 1.9).
-These tests pin the edges: exactly at a bound is not flagged, just beyond it is, and
+Bejan, Tsatsaronis & Moran 1996, Ch. 2), a first-law efficiency on the HHV basis
+cannot exceed 1 (first law), and a heat engine cannot beat Carnot (Kotas 1995, Ch. 1;
+chapters from memory). These tests pin the edges: exactly at a bound is not flagged, just beyond it is, and
 NaN never sets a consistency flag.
 """
 
@@ -62,7 +62,7 @@ def test_efficiency_above_one_edges():
 
 def test_above_carnot_against_hand_computed_limit():
     # Carnot between 540 degC (813.15 K) and 25 degC (298.15 K): 1 - 298.15/813.15
-    # = 0.633340... (Kotas 1995, Sec. 1.9; arithmetic by hand).
+    # = 0.633340... (Kotas 1995, Ch. 1; arithmetic by hand).
     limit = 1.0 - 298.15 / 813.15
     assert limit == pytest.approx(0.6333395, abs=1e-7)
     out = checks.above_carnot([0.45, limit, 0.64, 0.64], [limit, limit, limit, np.nan])

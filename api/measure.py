@@ -118,6 +118,27 @@ table is returned unchanged (the unit text returned says so).
 
 SYSTEMS = ("si", "us")
 
+SI_BY_DIMENSION: tuple[str, ...] = (
+    "Pa",
+    "K",
+    "kg/s",
+    "W",
+    "J/kg",
+    "J/(kg K)",
+    "J",
+    "kg",
+    "m",
+    "m^2",
+    "m^3/s",
+    "kg/m^3",
+    "m^3/kg",
+    "W/K",
+    "kg/J",
+    "s",
+    "1",
+)
+"""Preferred SI unit per dimension, for a tag that feeds no role (:func:`si_unit_for`)."""
+
 
 class UnitError(ValueError):
     """A unit text pint cannot read, or a unit that cannot feed the SI unit asked for."""
@@ -194,6 +215,27 @@ def check_compatible(unit_text: str, si_unit: str) -> None:
             f"unit {unit_text!r} ({_dimension_text(unit)}) cannot be converted to "
             f"{si_unit!r} ({_dimension_text(si)})"
         )
+
+
+def si_unit_for(unit_text: str) -> str:
+    """The SI unit a value in ``unit_text`` is stored in when no role declares one.
+
+    Parameters
+    ----------
+    unit_text : str
+        A unit of measure (``"t/h"``, ``"barg"``, ``"MW"``).
+
+    Returns
+    -------
+    str
+        The first unit of :data:`SI_BY_DIMENSION` with the same dimension (``"kg/s"``,
+        ``"Pa"``, ``"W"``), else pint's SI base-unit expression (``"kilogram / second"``).
+    """
+    unit = parse_unit(unit_text)
+    for si in SI_BY_DIMENSION:
+        if parse_unit(si).dimensionality == unit.dimensionality:
+            return si
+    return f"{ureg.Quantity(1.0, unit).to_base_units().units}"
 
 
 def _dimension_text(unit: pint.Unit) -> str:

@@ -214,3 +214,21 @@ def test_convert_series_si_returns_values_unchanged():
     assert unit == "kg/s"
     assert list(values.index) == [3, 4]
     np.testing.assert_array_equal(values.to_numpy(), [1.5, np.nan])
+
+
+@pytest.mark.parametrize(
+    ("unit", "si"),
+    [
+        ("t/h", "kg/s"),
+        ("barg", "Pa"),
+        ("MW", "W"),
+        ("degF", "K"),
+        ("Btu/lb", "J/kg"),
+        ("%", "1"),
+        ("Nm3/h", "m^3/s"),
+        ("Btu/(lb degR)", "J/(kg K)"),
+        ("A", "ampere"),  # no preferred SI unit: pint's base-unit expression
+    ],
+)
+def test_si_unit_for(unit, si):
+    assert measure.si_unit_for(unit) == si

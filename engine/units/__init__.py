@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 from engine.catalogue import UnitKind
-from engine.units import block, boiler
+from engine.units import block, boiler, steam_turbine
 
 KINDS: tuple[UnitKind, ...] = (
     boiler.KIND,
     block.KIND,
+    steam_turbine.KIND,
 )

@@ -71,6 +71,8 @@ SEPARATORS = ("\t", ";", ",")
 """Separators tried, in order of preference on a tie."""
 TIME_NAMES = ("time", "timestamp", "datetime", "date_time", "date time", "date/time")
 DATE_NAME = "date"
+MAX_NOTICE_ROWS = 1000
+"""Rows listed in one notice at most (a file sent twice would list every row)."""
 
 
 @dataclass(frozen=True)
@@ -138,12 +140,16 @@ class Notice:
     message : str
         What was decided.
     rows : tuple of int
-        The rows concerned (1-based record numbers), if any.
+        The rows concerned (1-based record numbers), if any; at most the first
+        :data:`MAX_NOTICE_ROWS`.
     """
 
     kind: str
     message: str
     rows: tuple[int, ...] = ()
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "rows", tuple(self.rows[:MAX_NOTICE_ROWS]))
 
     def as_dict(self) -> dict[str, Any]:
         return {"kind": self.kind, "message": self.message, "rows": list(self.rows)}
@@ -366,6 +372,7 @@ def _zone(name: str) -> str | None:
 # --- numbers ---------------------------------------------------------------------------
 
 _OK, _EMPTY, _TEXT, _NONFINITE, _POINT = 0, 1, 2, 3, 4
+_DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")
 
 
 def _parse_numbers(cells: pd.Series, decimal: str) -> tuple[np.ndarray, np.ndarray]:
@@ -398,6 +405,11 @@ def _number_message(text: str, status: int | np.integer) -> str:
         return (
             f"{text!r} contains '.' but this file uses decimal commas; thousands "
             "separators are not accepted"
+        )
+    if _DECIMAL_COMMA.match(text):
+        return (
+            f"{text!r} is not a number (decimal commas are read only in files separated "
+            "by ';' or tab)"
         )
     return f"{text!r} is not a number"
 

@@ -228,6 +228,28 @@ def test_tab_separated():
     assert value(result, "B1 flue O2", utc_ms(2026, 1, 15, 7)) == pytest.approx(0.035)
 
 
+def test_quoted_decimal_comma_in_a_comma_file_is_not_read():
+    result = parse('time,B1 flue O2 [%]\n2026-01-15 08:00,"3,5"\n')
+    assert errors(result) == [
+        (
+            2,
+            "B1 flue O2 [%]",
+            "value",
+            "3,5",
+            "'3,5' is not a number (decimal commas are read only in files separated by ';' or tab)",
+        )
+    ]
+
+
+def test_a_file_sent_twice_lists_at_most_a_thousand_rows_in_its_notice():
+    body = "".join(f"2026-07-01 {h:02d}:{m:02d},3\n" for h in range(24) for m in range(60))
+    result = parse("time,B1 flue O2\n" + body + body)
+    assert len(result.readings) == 1440
+    (notice,) = result.notices
+    assert notice.message.startswith("1440 readings replaced by a later row")
+    assert notice.rows == tuple(range(2, 1002))
+
+
 def test_comma_file_with_a_decimal_comma_row_is_reported_not_shifted():
     text = (
         "time,B1 flue O2 [%],B1 drum pressure\n2026-01-15 08:00,3.5,10\n2026-01-15 08:15,3,6,10\n"

@@ -27,10 +27,10 @@ References
    from pressure and temperature. Definitions used here as stated in the docstrings;
    clause numbers not quoted (not checked against the text).
 .. [2] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley,
-   1996, Sec. 2.5 (entropy balance for a control volume), Sec. 3.3 (flow exergy,
-   Eq. 3.13), Sec. 3.4 (exergy balance; Gouy-Stodola, Eq. 3.24), Sec. 3.5 (exergetic
-   efficiency of a turbine: power over the decrease in the steam's flow exergy).
-   Section numbers from memory.
+   1996, Ch. 2 (entropy balance for a control volume), Ch. 3 (flow exergy, Eq. 3.13;
+   exergy balance and Gouy-Stodola, Eq. 3.24; exergetic efficiency of a turbine:
+   power over the decrease in the steam's flow exergy). Chapter-level citations;
+   section numbers not checked.
 .. [3] IAPWS R7-97(2012), IAPWS-IF97: all water and steam properties (via
    :mod:`engine.steam`, whose (p, h) and (p, s) routes solve the basic equations and
    take wet steam by the lever rule between the saturated states, Sec. 8).
@@ -487,9 +487,9 @@ def steam_turbine(
     **Which enthalpies are measured.** A port (extraction or exhaust) whose temperature
     is bound and lies more than ``min_superheat_k`` (at least 1 mK) above saturation,
     or above the critical temperature at a supercritical pressure, has its state from
-    (p, T). Any other port is taken as wet and its enthalpy as unknown. Per row, if exactly one
-    unknown port has a non-zero flow, its enthalpy closes the energy balance on the
-    measured output; a wet port with zero flow carries nothing and is left unknown (its
+    (p, T). Any other port is taken as wet and its enthalpy as unknown. Per row, if
+    exactly one unknown port has a non-zero flow, its enthalpy closes the energy
+    balance on the measured output; a wet port with zero flow carries nothing and is left unknown (its
     adjacent sections are NaN). With two or more unknowns the row is NaN with
     INPUT_OUT_OF_RANGE; with none the balance is over-determined and checked.
 
@@ -510,7 +510,7 @@ def steam_turbine(
         eta_s    = (h_in - h_exh) / (h_in - h_s(p_exh, s_in))
 
     **Second law** on the boundary around turbine and generator at T0 (module notes;
-    Eq. 3.13, Sec. 3.4 and 3.5 in [2]_)::
+    Eq. 3.13 and Ch. 3 in [2]_)::
 
         exergy_in = m_in ex_in - sum_out m ex,   ex = (h - h0) - T0 (s - s0)
         eta_2 = W / exergy_in,   eta_2_electrical = P_gen / exergy_in

@@ -139,6 +139,23 @@ def get_session_factory() -> sessionmaker[Session]:
     return make_session_factory(get_engine())
 
 
+def lock_for_write(session: Session) -> None:
+    """Take SQLite's write lock now, at the start of a read-then-write transaction.
+
+    pysqlite opens a transaction only at the first data-changing statement, so the
+    reads before it see the latest data; but once a transaction has read, a second
+    writer committing first makes the upgrade to a write fail at once ("database is
+    locked") instead of waiting. ``BEGIN IMMEDIATE`` waits (``busy_timeout``) for the
+    lock up front. No-op on PostgreSQL, and when a transaction is already open.
+    """
+    connection = session.connection()
+    if connection.dialect.name != "sqlite":
+        return
+    dbapi = connection.connection.dbapi_connection
+    if dbapi is not None and not dbapi.in_transaction:
+        dbapi.execute("BEGIN IMMEDIATE")
+
+
 @contextmanager
 def session_scope(factory: sessionmaker[Session] | None = None) -> Iterator[Session]:
     """A session for background work (worker, CLI): commit on success, roll back on error.

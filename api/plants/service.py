@@ -1,0 +1,693 @@
+"""Plant configuration: applying a plant file, reading plants and units back.
+
+``apply_plant`` validates the whole file first — schema, quantities, catalogue, units of
+measure — and reports every problem at once; nothing is written when there is one. It is
+idempotent: applying the same file again changes nothing and queues no work.
+
+What a change does to stored data (readings are stored in SI and never re-converted):
+
+* a unit created, or its kind, parameters, fuel or role bindings changed: the unit's
+  results are out of date, so its span over all stored readings of its tags is queued;
+* a fuel's properties changed: the same for every unit burning it;
+* the plant's dead state or ambient tag changed: the same for every unit of the plant;
+* the plant's interval changed: the plant's results are deleted (they sit on the old
+  grid) and every unit is queued;
+* a tag's unit of measure, bounds or uncertainty changed: nothing is recomputed; the new
+  unit and bounds apply to readings arriving from then on;
+* a unit missing from the file is deleted with its results; a fuel missing from the
+  file is deleted; a tag missing from the file is KEPT with its readings (listed in the
+  report), because deleting measured data on a typo is not recoverable.
+"""
+
+from __future__ import annotations
+
+import math
+import zoneinfo
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from pydantic import ValidationError
+from sqlalchemy import delete, select
+from sqlalchemy.orm import Session, selectinload
+
+from api import measure
+from api.core.db import utcnow
+from api.core.problems import InvalidInput, NotFound
+from api.plants.fileformat import PlantFile, TagSpec
+from api.plants.fuels import fuel_properties
+from api.plants.models import Fuel, Plant, Tag, Unit, UnitBinding
+from api.plants.quantities import canonical_si_unit, to_si_number
+from api.readings.dirty import align, mark_units_dirty, reading_range
+from api.results.models import ResultValue
+from engine.catalogue import UnitKind, all_kinds
+from engine.fuels import FuelProperties
+
+ENERGY_PRICE_BASIS = "GJ"
+
+
+@dataclass
+class ApplyReport:
+    """What applying a plant file did (or, for a dry run, would do)."""
+
+    plant: str
+    changed: bool = False
+    created: list[str] = field(default_factory=list)
+    updated: list[str] = field(default_factory=list)
+    deleted: list[str] = field(default_factory=list)
+    kept_tags: list[str] = field(default_factory=list)
+    """Tags stored for the plant but absent from the file (kept, with their readings)."""
+    units_marked_dirty: list[str] = field(default_factory=list)
+    dry_run: bool = False
+
+
+# --------------------------------------------------------------------------- validation
+
+
+@dataclass
+class _Resolved:
+    """The plant file checked and converted to SI, ready to write."""
+
+    doc: PlantFile
+    interval_seconds: int
+    atmosphere_pa: float
+    t0_k: float
+    p0_pa: float
+    fuel_price_per_gj: float | None
+    fuels: dict[str, FuelProperties]
+    tag_si: dict[str, str]
+    tag_columns: dict[str, dict[str, Any]]
+    unit_parameters: dict[str, dict[str, float]]
+
+
+def _pydantic_errors(exc: ValidationError) -> list[dict[str, Any]]:
+    errors = []
+    for err in exc.errors():
+        loc = [str(p) for p in err["loc"]]
+        # Unions report one branch per alternative; the field path is what matters.
+        loc = [p for p in loc if p not in {"float", "str"} and not p.startswith("function-")]
+        path = ".".join(loc)
+        errors.append({"field": path, "message": f"{path}: {err['msg']}"})
+    return errors
+
+
+def parse_plant_file(document: Any) -> PlantFile:
+    """The document checked against the plant-file schema; InvalidInput otherwise."""
+    if not isinstance(document, Mapping):
+        raise InvalidInput(
+            "a plant file is a mapping with the sections plant, fuels, tags, units",
+            errors=[{"field": "", "message": "the document is not a mapping"}],
+        )
+    try:
+        return PlantFile.model_validate(dict(document))
+    except ValidationError as exc:
+        errors = _pydantic_errors(exc)
+        raise InvalidInput(
+            f"the plant file has {len(errors)} problem(s); nothing was applied", errors=errors
+        ) from None
+
+
+def _resolve(
+    doc: PlantFile, *, default_interval_s: int, kinds: Mapping[str, UnitKind]
+) -> _Resolved:
+    errors: list[dict[str, Any]] = []
+
+    def err(path: str, message: str) -> None:
+        errors.append({"field": path, "message": message})
+
+    p = doc.plant
+    try:
+        zoneinfo.ZoneInfo(p.time_zone)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        err("plant.time_zone", f"plant.time_zone: {p.time_zone!r} is not an IANA time zone name")
+
+    def quantity(path: str, value: float | str, si_unit: str, atm: float, **kw: Any) -> float:
+        try:
+            return to_si_number(value, si_unit, atmosphere_pa=atm, **kw)
+        except ValueError as exc:
+            err(path, f"{path}: {exc}")
+            return float("nan")
+
+    std_atm = measure.STANDARD_ATMOSPHERE_PA
+    atmosphere = quantity("plant.atmosphere", p.atmosphere, "Pa", std_atm)
+    if not 50_000 <= atmosphere <= 110_000:
+        err("plant.atmosphere", f"plant.atmosphere: {atmosphere:.0f} Pa is not an atmosphere")
+        atmosphere = std_atm
+    t0 = quantity("plant.dead_state.temperature", p.dead_state.temperature, "K", atmosphere)
+    if not 223.15 <= t0 <= 343.15:
+        err(
+            "plant.dead_state.temperature",
+            f"plant.dead_state.temperature: {t0:.2f} K is outside -50..70 degC",
+        )
+    p0 = quantity("plant.dead_state.pressure", p.dead_state.pressure, "Pa", atmosphere)
+    if not 50_000 <= p0 <= 110_000:
+        err("plant.dead_state.pressure", f"plant.dead_state.pressure: {p0:.0f} Pa is not ambient")
+    interval = default_interval_s
+    if p.interval is not None:
+        seconds = quantity("plant.interval", p.interval, "s", atmosphere)
+        if not (seconds >= 1 and seconds <= 86_400 and float(seconds).is_integer()):
+            err(
+                "plant.interval", f"plant.interval: {seconds} s must be whole seconds, 1 s to 1 day"
+            )
+        else:
+            interval = int(seconds)
+    price = None
+    if p.fuel_price is not None:
+        try:
+            gj_per_unit = measure.convert(1.0, p.fuel_price.per, ENERGY_PRICE_BASIS)
+            price = p.fuel_price.amount / float(gj_per_unit)
+        except ValueError as exc:
+            err("plant.fuel_price.per", f"plant.fuel_price.per: {exc}")
+
+    fuels: dict[str, FuelProperties] = {}
+    for name, spec in doc.fuels.items():
+        try:
+            fuels[name] = fuel_properties(name, spec, atmosphere_pa=atmosphere)
+        except ValueError as exc:
+            err(f"fuels.{name}", f"fuel {name!r}: {exc}")
+
+    # Tags: the unit of measure must parse; bounds in order; uncertainty convertible.
+    tag_ok: dict[str, bool] = {}
+    for name, tag in doc.tags.items():
+        try:
+            measure.parse_unit(tag.unit)
+            tag_ok[name] = True
+        except measure.UnitError as exc:
+            err(f"tags.{name}.unit", f"tag {name!r}: {exc}")
+            tag_ok[name] = False
+        if tag.low is not None and tag.high is not None and not tag.low < tag.high:
+            err(f"tags.{name}", f"tag {name!r}: low {tag.low} must be below high {tag.high}")
+
+    # Units: catalogue checks, then each binding's tag and its unit of measure.
+    tag_si: dict[str, str] = {}
+    tag_feeds: dict[str, str] = {}
+    parameters: dict[str, dict[str, float]] = {}
+    for slug, unit in doc.units.items():
+        where = f"unit {slug!r}"
+        kind = kinds.get(unit.kind)
+        if kind is None:
+            err(
+                f"units.{slug}.kind",
+                f"{where}: unknown kind {unit.kind!r}; known: {', '.join(sorted(kinds)) or 'none'}",
+            )
+            continue
+        if unit.fuel is not None and unit.fuel not in doc.fuels:
+            err(f"units.{slug}.fuel", f"{where}: fuel {unit.fuel!r} is not defined under fuels")
+        values: dict[str, float] = {}
+        for pname, pvalue in unit.parameters.items():
+            spec = kind.parameter(pname)
+            if spec is None:
+                continue  # UnitKind.validate names it
+            values[pname] = quantity(
+                f"units.{slug}.parameters.{pname}", pvalue, spec.unit, atmosphere
+            )
+        parameters[slug] = values
+        for problem in kind.validate(unit.inputs.keys(), values, unit.fuel is not None):
+            path = f"units.{slug}"
+            if problem.where.startswith("role '"):
+                path += ".inputs." + problem.where[len("role '") : -1]
+            elif problem.where.startswith("parameter '"):
+                path += ".parameters." + problem.where[len("parameter '") : -1]
+            elif problem.where == "fuel":
+                path += ".fuel"
+            else:
+                path += ".inputs"
+            err(path, f"{where}, {problem.where}: {problem.message}")
+        for role_name, tag_name in unit.inputs.items():
+            role = kind.role(role_name)
+            path = f"units.{slug}.inputs.{role_name}"
+            if tag_name not in doc.tags:
+                err(
+                    path, f"{where}, role {role_name!r}: tag {tag_name!r} is not defined under tags"
+                )
+                continue
+            if role is None or not tag_ok.get(tag_name):
+                continue
+            tag_unit = doc.tags[tag_name].unit
+            try:
+                measure.check_compatible(tag_unit, role.unit)
+            except measure.UnitError as exc:
+                err(path, f"{where}, role {role_name!r}: tag {tag_name!r} cannot feed it: {exc}")
+                continue
+            feeder = f"role {role_name!r} of unit {slug!r}"
+            if tag_name in tag_si and measure.parse_unit(tag_si[tag_name]).dimensionality != (
+                measure.parse_unit(role.unit).dimensionality
+            ):
+                err(
+                    path,
+                    f"{where}, role {role_name!r}: tag {tag_name!r} already feeds "
+                    f"{tag_feeds[tag_name]} in {tag_si[tag_name]}, not {role.unit}",
+                )
+                continue
+            tag_si.setdefault(tag_name, role.unit)
+            tag_feeds.setdefault(tag_name, feeder)
+
+    ambient = p.dead_state.ambient_tag
+    if ambient is not None:
+        if ambient not in doc.tags:
+            err(
+                "plant.dead_state.ambient_tag", f"ambient tag {ambient!r} is not defined under tags"
+            )
+        elif tag_ok.get(ambient):
+            try:
+                measure.check_compatible(doc.tags[ambient].unit, "K")
+                tag_si.setdefault(ambient, "K")
+            except measure.UnitError as exc:
+                err("plant.dead_state.ambient_tag", f"ambient tag {ambient!r}: {exc}")
+
+    columns: dict[str, dict[str, Any]] = {}
+    for name, tag in doc.tags.items():
+        if not tag_ok.get(name):
+            continue
+        si = tag_si.get(name) or canonical_si_unit(tag.unit)
+        columns[name] = _tag_columns(name, tag, si, atmosphere, err)
+
+    if errors:
+        raise InvalidInput(
+            f"the plant file has {len(errors)} problem(s); nothing was applied", errors=errors
+        )
+    return _Resolved(
+        doc=doc,
+        interval_seconds=interval,
+        atmosphere_pa=atmosphere,
+        t0_k=t0,
+        p0_pa=p0,
+        fuel_price_per_gj=price,
+        fuels=fuels,
+        tag_si={n: c["si_unit"] for n, c in columns.items()},
+        tag_columns=columns,
+        unit_parameters=parameters,
+    )
+
+
+def _tag_columns(name: str, tag: TagSpec, si: str, atmosphere: float, err: Any) -> dict[str, Any]:
+    def to_si(value: float | None) -> float | None:
+        return None if value is None else float(measure.to_si(value, tag.unit, si, atmosphere))
+
+    uncertainty_si = None
+    if isinstance(tag.uncertainty, int | float):
+        # An absolute uncertainty is a difference: convert it with the slope of the
+        # (affine) conversion, so that degC or barg offsets do not enter.
+        base = tag.low if tag.low is not None else 0.0
+        lo, hi = to_si(base), to_si(base + float(tag.uncertainty))
+        assert lo is not None and hi is not None
+        uncertainty_si = abs(hi - lo)
+    return {
+        "unit": tag.unit,
+        "si_unit": si,
+        "description": tag.description,
+        "low": tag.low,
+        "high": tag.high,
+        "low_si": to_si(tag.low),
+        "high_si": to_si(tag.high),
+        "uncertainty_si": uncertainty_si,
+        "uncertainty_rel": tag.relative_uncertainty(),
+    }
+
+
+# --------------------------------------------------------------------------- apply
+
+
+def _set(obj: Any, values: Mapping[str, Any]) -> bool:
+    """Assign changed attributes only; whether anything changed."""
+    changed = False
+    for name, value in values.items():
+        old = getattr(obj, name)
+        if isinstance(old, float) and isinstance(value, float) and math.isclose(old, value):
+            continue  # a round trip through unit conversion may move the last bit
+        if old != value:
+            setattr(obj, name, value)
+            changed = True
+    if changed and hasattr(obj, "updated_at"):
+        obj.updated_at = utcnow()
+    return changed
+
+
+def apply_plant(
+    *,
+    session: Session,
+    document: Any,
+    default_interval_s: int = 60,
+    dry_run: bool = False,
+    expected_slug: str | None = None,
+) -> ApplyReport:
+    """Create or update the plant a plant file describes (see the module notes).
+
+    ``document`` is the parsed YAML or JSON. ``expected_slug`` (from a URL) must match
+    the file's ``plant.slug``. Raises :class:`InvalidInput` listing every problem.
+    """
+    doc = parse_plant_file(document)
+    if expected_slug is not None and doc.plant.slug != expected_slug:
+        raise InvalidInput(
+            f"the file describes plant {doc.plant.slug!r}, not {expected_slug!r}",
+            errors=[{"field": "plant.slug", "message": f"expected {expected_slug!r}"}],
+        )
+    resolved = _resolve(doc, default_interval_s=default_interval_s, kinds=all_kinds())
+
+    # Unit slugs are unique across the installation.
+    taken = session.execute(
+        select(Unit.slug, Plant.slug)
+        .join(Plant, Unit.plant_id == Plant.id)
+        .where(Unit.slug.in_(list(doc.units)), Plant.slug != doc.plant.slug)
+    ).all()
+    if taken:
+        raise InvalidInput(
+            f"the plant file has {len(taken)} problem(s); nothing was applied",
+            errors=[
+                {
+                    "field": f"units.{unit}",
+                    "message": f"unit slug {unit!r} already belongs to plant {plant!r}",
+                }
+                for unit, plant in taken
+            ],
+        )
+
+    report = ApplyReport(plant=doc.plant.slug, dry_run=dry_run)
+    try:
+        _write(session, resolved, report)
+        report.changed = bool(report.created or report.updated or report.deleted)
+        if dry_run:
+            session.rollback()
+        else:
+            session.commit()
+    except BaseException:
+        session.rollback()
+        raise
+    return report
+
+
+def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
+    p = r.doc.plant
+    plant = session.scalars(
+        select(Plant)
+        .where(Plant.slug == p.slug)
+        .options(selectinload(Plant.fuels), selectinload(Plant.tags), selectinload(Plant.units))
+    ).one_or_none()
+    plant_values = {
+        "name": p.name,
+        "time_zone": p.time_zone,
+        "t0_k": r.t0_k,
+        "p0_pa": r.p0_pa,
+        "ambient_tag": p.dead_state.ambient_tag,
+        "atmosphere_pa": r.atmosphere_pa,
+        "interval_seconds": r.interval_seconds,
+        "fuel_price_per_gj": r.fuel_price_per_gj,
+        "currency": p.fuel_price.currency if p.fuel_price else None,
+    }
+    all_units_dirty = False
+    interval_changed = False
+    if plant is None:
+        plant = Plant(slug=p.slug, **plant_values)
+        session.add(plant)
+        session.flush()
+        report.created.append(f"plant {p.slug}")
+    else:
+        before = {
+            k: getattr(plant, k) for k in ("t0_k", "p0_pa", "ambient_tag", "interval_seconds")
+        }
+        if _set(plant, plant_values):
+            report.updated.append(f"plant {p.slug}")
+            after = {k: getattr(plant, k) for k in before}
+            all_units_dirty = before != after
+            interval_changed = before["interval_seconds"] != after["interval_seconds"]
+
+    # Fuels
+    fuels = {f.name: f for f in plant.fuels}
+    changed_fuels: set[str] = set()
+    for name, props in r.fuels.items():
+        values = {
+            "spec": r.doc.fuels[name].model_dump(exclude_none=True),
+            "hhv_j_per_kg": props.hhv_j_per_kg,
+            "lhv_j_per_kg": props.lhv_j_per_kg,
+            "exergy_to_lhv_ratio": props.exergy_to_lhv_ratio,
+            "density_kg_per_m3": props.density_kg_per_m3,
+            "co2_kg_per_j": props.co2_kg_per_j,
+        }
+        if name not in fuels:
+            fuels[name] = Fuel(plant_id=plant.id, name=name, **values)
+            session.add(fuels[name])
+            report.created.append(f"fuel {name}")
+        elif _set(fuels[name], values):
+            changed_fuels.add(name)
+            report.updated.append(f"fuel {name}")
+    session.flush()
+
+    # Tags (never deleted here: see the module notes)
+    tags = {t.name: t for t in plant.tags}
+    for name, values in r.tag_columns.items():
+        if name not in tags:
+            tags[name] = Tag(plant_id=plant.id, name=name, **values)
+            session.add(tags[name])
+            report.created.append(f"tag {name}")
+        elif _set(tags[name], values):
+            report.updated.append(f"tag {name}")
+    report.kept_tags = sorted(set(tags) - set(r.tag_columns))
+    session.flush()
+
+    # Units and their bindings
+    units = {u.slug: u for u in plant.units}
+    dirty: set[int] = set()
+    for slug, spec in r.doc.units.items():
+        values = {
+            "name": spec.name,
+            "kind": spec.kind,
+            "parameters": r.unit_parameters.get(slug, {}),
+            "fuel_id": fuels[spec.fuel].id if spec.fuel else None,
+        }
+        unit = units.get(slug)
+        if unit is None:
+            unit = Unit(plant_id=plant.id, slug=slug, **values)
+            session.add(unit)
+            session.flush()
+            units[slug] = unit
+            report.created.append(f"unit {slug}")
+            config_changed = True
+        else:
+            compute_before = (unit.kind, unit.parameters, unit.fuel_id)
+            changed = _set(unit, values)
+            config_changed = compute_before != (unit.kind, unit.parameters, unit.fuel_id)
+            if changed:
+                report.updated.append(f"unit {slug}")
+        wanted = {role: tags[tag].id for role, tag in spec.inputs.items()}
+        existing = {
+            b.role: b
+            for b in session.scalars(select(UnitBinding).where(UnitBinding.unit_id == unit.id))
+        }
+        bindings_changed = False
+        for role, binding in existing.items():
+            if role not in wanted:
+                session.delete(binding)
+                bindings_changed = True
+            elif binding.tag_id != wanted[role]:
+                binding.tag_id = wanted[role]
+                bindings_changed = True
+        for role, tag_id in wanted.items():
+            if role not in existing:
+                session.add(UnitBinding(unit_id=unit.id, role=role, tag_id=tag_id))
+                bindings_changed = True
+        if bindings_changed and f"unit {slug}" not in report.created + report.updated:
+            report.updated.append(f"unit {slug}")
+        fuel_name = spec.fuel
+        if config_changed or bindings_changed or (fuel_name in changed_fuels):
+            dirty.add(unit.id)
+    session.flush()
+
+    removed = [u for slug, u in units.items() if slug not in r.doc.units]
+    for unit in removed:
+        session.execute(delete(ResultValue).where(ResultValue.unit_id == unit.id))
+        session.delete(unit)
+        report.deleted.append(f"unit {unit.slug}")
+    session.flush()
+    for name, fuel in fuels.items():
+        if name not in r.doc.fuels:
+            session.delete(fuel)
+            report.deleted.append(f"fuel {name}")
+    session.flush()
+
+    live = {slug: u for slug, u in units.items() if slug in r.doc.units}
+    if interval_changed:
+        session.execute(
+            delete(ResultValue).where(ResultValue.unit_id.in_([u.id for u in live.values()]))
+        )
+    if all_units_dirty:
+        dirty |= {u.id for u in live.values()}
+    spans = []
+    interval_ms = plant.interval_seconds * 1000
+    for unit in live.values():
+        if unit.id not in dirty:
+            continue
+        tag_ids = [tags[t].id for t in r.doc.units[unit.slug].inputs.values()]
+        if plant.ambient_tag:
+            tag_ids.append(tags[plant.ambient_tag].id)
+        span = reading_range(session=session, tag_ids=tag_ids)
+        if span is not None:
+            spans.append((unit.id, *align(span[0], span[1], interval_ms)))
+            report.units_marked_dirty.append(unit.slug)
+    mark_units_dirty(session=session, spans=spans, reason="config")
+    report.units_marked_dirty.sort()
+
+
+# --------------------------------------------------------------------------- reading
+
+
+def list_plants(*, session: Session) -> list[Plant]:
+    return list(session.scalars(select(Plant).order_by(Plant.slug)))
+
+
+def get_plant(*, session: Session, slug: str) -> Plant:
+    plant = session.scalars(
+        select(Plant)
+        .where(Plant.slug == slug)
+        .options(
+            selectinload(Plant.fuels),
+            selectinload(Plant.tags),
+            selectinload(Plant.units).selectinload(Unit.bindings).selectinload(UnitBinding.tag),
+        )
+    ).one_or_none()
+    if plant is None:
+        raise NotFound(f"no plant {slug!r}")
+    return plant
+
+
+def list_units(*, session: Session, plant_slug: str | None = None) -> list[Unit]:
+    query = select(Unit).options(selectinload(Unit.plant)).order_by(Unit.slug)
+    if plant_slug is not None:
+        query = query.join(Plant).where(Plant.slug == plant_slug)
+    return list(session.scalars(query))
+
+
+def get_unit(*, session: Session, slug: str) -> Unit:
+    unit = session.scalars(
+        select(Unit)
+        .where(Unit.slug == slug)
+        .options(
+            selectinload(Unit.plant),
+            selectinload(Unit.fuel),
+            selectinload(Unit.bindings).selectinload(UnitBinding.tag),
+        )
+    ).one_or_none()
+    if unit is None:
+        raise NotFound(f"no unit {slug!r}")
+    return unit
+
+
+@dataclass(frozen=True)
+class UnitConfig:
+    """Everything the worker needs to compute one unit (all SI)."""
+
+    unit_id: int
+    slug: str
+    kind: str
+    parameters: dict[str, float]
+    """The kind's defaults overlaid with the configured values."""
+    bindings: dict[str, int]
+    """Role -> tag_id."""
+    fuel: FuelProperties | None
+    plant_id: int
+    interval_seconds: int
+    t0_k: float
+    p0_pa: float
+    ambient_tag_id: int | None
+    fuel_price_per_gj: float | None
+    currency: str | None
+
+
+def fuel_of(fuel: Fuel) -> FuelProperties:
+    return FuelProperties(
+        name=fuel.name,
+        hhv_j_per_kg=fuel.hhv_j_per_kg,
+        lhv_j_per_kg=fuel.lhv_j_per_kg,
+        exergy_to_lhv_ratio=fuel.exergy_to_lhv_ratio,
+        density_kg_per_m3=fuel.density_kg_per_m3,
+        co2_kg_per_j=fuel.co2_kg_per_j,
+    )
+
+
+def load_unit_config(*, session: Session, unit_id: int) -> UnitConfig:
+    """The compute configuration of a unit; NotFound when it no longer exists."""
+    unit = session.scalars(
+        select(Unit)
+        .where(Unit.id == unit_id)
+        .options(selectinload(Unit.plant), selectinload(Unit.fuel), selectinload(Unit.bindings))
+    ).one_or_none()
+    if unit is None:
+        raise NotFound(f"no unit with id {unit_id}")
+    plant = unit.plant
+    ambient_id = None
+    if plant.ambient_tag:
+        ambient_id = session.scalar(
+            select(Tag.id).where(Tag.plant_id == plant.id, Tag.name == plant.ambient_tag)
+        )
+    kind = all_kinds().get(unit.kind)
+    params = kind.resolve_parameters(unit.parameters) if kind else dict(unit.parameters)
+    return UnitConfig(
+        unit_id=unit.id,
+        slug=unit.slug,
+        kind=unit.kind,
+        parameters={k: float(v) for k, v in params.items() if v is not None},
+        bindings={b.role: b.tag_id for b in unit.bindings},
+        fuel=fuel_of(unit.fuel) if unit.fuel else None,
+        plant_id=plant.id,
+        interval_seconds=plant.interval_seconds,
+        t0_k=plant.t0_k,
+        p0_pa=plant.p0_pa,
+        ambient_tag_id=ambient_id,
+        fuel_price_per_gj=plant.fuel_price_per_gj,
+        currency=plant.currency,
+    )
+
+
+def tags_by_name(*, session: Session, plant_id: int) -> dict[str, Tag]:
+    return {t.name: t for t in session.scalars(select(Tag).where(Tag.plant_id == plant_id))}
+
+
+def export_plant(plant: Plant) -> dict[str, Any]:
+    """The plant as a plant-file document (SI numbers), which applies back unchanged."""
+    atm = plant.atmosphere_pa
+
+    def tag_doc(tag: Tag) -> dict[str, Any]:
+        doc: dict[str, Any] = {"unit": tag.unit}
+        for name in ("description", "low", "high"):
+            if getattr(tag, name) is not None:
+                doc[name] = getattr(tag, name)
+        if tag.uncertainty_rel is not None:
+            doc["uncertainty"] = f"{tag.uncertainty_rel * 100:g}% of reading"
+        elif tag.uncertainty_si is not None and tag.si_unit:
+            base = tag.low_si if tag.low_si is not None else 0.0
+            base_unit = measure.from_si(base, tag.si_unit, tag.unit, atm)
+            top_unit = measure.from_si(base + tag.uncertainty_si, tag.si_unit, tag.unit, atm)
+            doc["uncertainty"] = round(abs(float(top_unit) - float(base_unit)), 12)
+        return doc
+
+    plant_doc: dict[str, Any] = {
+        "slug": plant.slug,
+        "name": plant.name,
+        "time_zone": plant.time_zone,
+        "interval": plant.interval_seconds,
+        "atmosphere": plant.atmosphere_pa,
+        "dead_state": {"temperature": plant.t0_k, "pressure": plant.p0_pa},
+    }
+    if plant.ambient_tag:
+        plant_doc["dead_state"]["ambient_tag"] = plant.ambient_tag
+    if plant.fuel_price_per_gj is not None and plant.currency:
+        plant_doc["fuel_price"] = {
+            "amount": plant.fuel_price_per_gj,
+            "currency": plant.currency,
+            "per": ENERGY_PRICE_BASIS,
+        }
+    return {
+        "format": "lostwork-plant/1",
+        "plant": plant_doc,
+        "fuels": {f.name: f.spec for f in sorted(plant.fuels, key=lambda f: f.name)},
+        "tags": {t.name: tag_doc(t) for t in sorted(plant.tags, key=lambda t: t.name)},
+        "units": {
+            u.slug: {
+                "name": u.name,
+                "kind": u.kind,
+                **({"fuel": u.fuel.name} if u.fuel else {}),
+                "inputs": {b.role: b.tag.name for b in sorted(u.bindings, key=lambda b: b.role)},
+                "parameters": u.parameters,
+            }
+            for u in sorted(plant.units, key=lambda u: u.slug)
+        },
+    }

@@ -1,0 +1,170 @@
+"""The bulk upsert of readings, counting what it stored, replaced and left unchanged.
+
+PostgreSQL: the rows go by binary ``COPY`` into a session-local staging table (the
+buffer is built by numpy, no Python loop per row), then one
+``INSERT ... SELECT ... ON CONFLICT DO UPDATE ... WHERE value IS DISTINCT FROM`` moves
+them, returning per tag how many rows were new (``xmax = 0``) or changed and the time
+range they cover. SQLite: ``executemany`` into a temporary staging table, one query
+classifying the rows against the stored ones, and one ``INSERT ... ON CONFLICT``.
+
+Both run inside the caller's transaction; the caller commits (together with the dirty
+spans, so that a stored reading always has its recompute queued).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from sqlalchemy.orm import Session
+
+from api.core.db import lock_for_write
+
+STAGE = "lw_readings_stage"
+
+# PGCOPY binary: signature, flags, header extension length; each row: field count
+# then (length, value) per field, all big-endian; trailer -1.
+_PGCOPY_HEADER = b"PGCOPY\n\xff\r\n\x00" + (0).to_bytes(4, "big") + (0).to_bytes(4, "big")
+_PGCOPY_TRAILER = (-1).to_bytes(2, "big", signed=True)
+_PGCOPY_ROW = np.dtype(
+    [
+        ("n", ">i2"),
+        ("l1", ">i4"),
+        ("tag_id", ">i4"),
+        ("l2", ">i4"),
+        ("t_ms", ">i8"),
+        ("l3", ">i4"),
+        ("value", ">f8"),
+    ]
+)
+
+
+@dataclass
+class UpsertOutcome:
+    stored: int = 0
+    """New (tag, time) keys."""
+    replaced: int = 0
+    """Existing keys whose value changed."""
+    unchanged: int = 0
+    """Existing keys sent again with the same value."""
+    changed_ranges: dict[int, tuple[int, int]] = field(default_factory=dict)
+    """tag_id -> (earliest, latest) t_ms among stored or replaced rows."""
+
+
+def dedupe_last(
+    tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, int]:
+    """Keep the last of repeated (tag, time) keys within one batch; how many were dropped."""
+    n = len(tag_ids)
+    if n < 2:
+        return tag_ids, t_ms, values, 0
+    order = np.lexsort((np.arange(n), t_ms, tag_ids))
+    tg, tm = tag_ids[order], t_ms[order]
+    last = np.ones(n, dtype=bool)
+    last[:-1] = (tg[1:] != tg[:-1]) | (tm[1:] != tm[:-1])
+    keep = order[last]
+    return tag_ids[keep], t_ms[keep], values[keep], n - len(keep)
+
+
+def upsert_readings(
+    session: Session, tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray
+) -> UpsertOutcome:
+    """Store readings (SI, unique keys: see :func:`dedupe_last`) in the open transaction."""
+    if len(tag_ids) == 0:
+        return UpsertOutcome()
+    tag_ids = np.asarray(tag_ids, dtype=np.int32)
+    t_ms = np.asarray(t_ms, dtype=np.int64)
+    values = np.asarray(values, dtype=np.float64)
+    if session.get_bind().dialect.name == "postgresql":
+        rows = _upsert_postgresql(session, tag_ids, t_ms, values)
+    else:
+        rows = _upsert_sqlite(session, tag_ids, t_ms, values)
+    outcome = UpsertOutcome()
+    changed = 0
+    for tag_id, lo, hi, inserted, total in rows:
+        outcome.changed_ranges[int(tag_id)] = (int(lo), int(hi))
+        outcome.stored += int(inserted)
+        changed += int(total)
+    outcome.replaced = changed - outcome.stored
+    outcome.unchanged = len(tag_ids) - changed
+    return outcome
+
+
+def _pgcopy_buffer(tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray) -> bytes:
+    rows = np.empty(len(tag_ids), dtype=_PGCOPY_ROW)
+    rows["n"], rows["l1"], rows["l2"], rows["l3"] = 3, 4, 8, 8
+    rows["tag_id"], rows["t_ms"], rows["value"] = tag_ids, t_ms, values
+    return _PGCOPY_HEADER + rows.tobytes() + _PGCOPY_TRAILER
+
+
+def _upsert_postgresql(
+    session: Session, tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray
+) -> list[Any]:
+    dbapi = session.connection().connection.dbapi_connection
+    assert dbapi is not None
+    with dbapi.cursor() as cur:
+        # ON COMMIT DELETE ROWS empties it at every commit; the explicit TRUNCATE covers
+        # several upserts inside one transaction.
+        cur.execute(
+            f"CREATE TEMP TABLE IF NOT EXISTS {STAGE} "
+            "(tag_id integer, t_ms bigint, value double precision) ON COMMIT DELETE ROWS"
+        )
+        cur.execute(f"TRUNCATE {STAGE}")
+        with cur.copy(f"COPY {STAGE} (tag_id, t_ms, value) FROM STDIN (FORMAT BINARY)") as copy:
+            copy.write(_pgcopy_buffer(tag_ids, t_ms, values))
+        cur.execute(
+            f"""
+            WITH moved AS (
+                INSERT INTO readings (tag_id, t_ms, value)
+                SELECT tag_id, t_ms, value FROM {STAGE}
+                ON CONFLICT (tag_id, t_ms) DO UPDATE SET value = EXCLUDED.value
+                WHERE readings.value IS DISTINCT FROM EXCLUDED.value
+                RETURNING tag_id, t_ms, (xmax = 0) AS inserted
+            )
+            SELECT tag_id, min(t_ms), max(t_ms), count(*) FILTER (WHERE inserted), count(*)
+            FROM moved GROUP BY tag_id
+            """
+        )
+        return cur.fetchall()
+
+
+def _upsert_sqlite(
+    session: Session, tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray
+) -> list[Any]:
+    lock_for_write(session)
+    dbapi = session.connection().connection.dbapi_connection
+    assert dbapi is not None
+    cur = dbapi.cursor()
+    try:
+        cur.execute(
+            f"CREATE TEMP TABLE IF NOT EXISTS {STAGE} "
+            "(tag_id INTEGER, t_ms INTEGER, value REAL, PRIMARY KEY (tag_id, t_ms))"
+        )
+        cur.execute(f"DELETE FROM {STAGE}")
+        cur.executemany(
+            f"INSERT INTO {STAGE} (tag_id, t_ms, value) VALUES (?, ?, ?)",
+            zip(tag_ids.tolist(), t_ms.tolist(), values.tolist(), strict=True),
+        )
+        cur.execute(
+            f"""
+            SELECT s.tag_id, min(s.t_ms), max(s.t_ms), sum(r.tag_id IS NULL), count(*)
+            FROM {STAGE} AS s
+            LEFT JOIN readings AS r ON r.tag_id = s.tag_id AND r.t_ms = s.t_ms
+            WHERE r.tag_id IS NULL OR r.value IS NOT s.value
+            GROUP BY s.tag_id
+            """
+        )
+        rows = cur.fetchall()
+        cur.execute(
+            f"""
+            INSERT INTO readings (tag_id, t_ms, value)
+            SELECT tag_id, t_ms, value FROM {STAGE} WHERE true
+            ON CONFLICT (tag_id, t_ms) DO UPDATE SET value = excluded.value
+            WHERE readings.value IS NOT excluded.value
+            """
+        )
+        cur.execute(f"DELETE FROM {STAGE}")
+        return rows
+    finally:
+        cur.close()

@@ -1,0 +1,1 @@
+"""Reusable pieces of the dashboard's pages: cards, tiles, empty states, controls."""

@@ -1,0 +1,355 @@
+"""Unit page: actual against expected, drift, CUSUM and flags, over hours to years."""
+
+from __future__ import annotations
+
+import asyncio
+from typing import Any
+
+import dash
+import pandas as pd
+from dash import Input, Output, State, dcc, html
+
+from dashboard import figures, timerange, unit_context
+from dashboard import formatting as fmt
+from dashboard.client import (
+    FLAGS_METRIC,
+    STEADY_METRIC,
+    ApiError,
+    LostworkClient,
+    Results,
+    baseline_metrics,
+)
+from dashboard.components import cards, prefs
+from dashboard.registry import clientside, page_callback
+from dashboard.unit_context import UnitContext
+
+PAGE = {
+    "path": "/units",
+    "path_template": "/units/<slug>",
+    "name": "Unit",
+    "order": 1,
+    "title": "lostwork · unit",
+}
+
+SLUG = "unit-slug"
+CONTEXT = "unit-context"
+WIDTH = "unit-width"
+WINDOW = "unit-window"
+TITLE = "unit-title"
+METRIC = "unit-metric"
+RANGE = "unit-range"
+MAIN = "unit-main"
+DRIFT = "unit-drift"
+CUSUM = "unit-cusum"
+CAPTION = "unit-caption"
+NOTE = "unit-note"
+LINKS = "unit-links"
+
+DEFAULT_METRIC = "eta_1"
+HIDDEN_METRICS = {FLAGS_METRIC, STEADY_METRIC}
+GRAPH_CONFIG = {
+    "displaylogo": False,
+    "responsive": True,
+    "modeBarButtonsToRemove": ["lasso2d", "select2d"],
+}
+
+
+def layout(slug: str | None = None, **_kwargs: Any) -> html.Div:
+    return html.Div(
+        [
+            dcc.Store(id=SLUG, data=slug),
+            dcc.Store(id=CONTEXT),
+            dcc.Store(id=WIDTH),
+            dcc.Store(id=WINDOW),
+            html.Header(id=TITLE, children=html.H1(slug or "Unit")),
+            html.Div(
+                [
+                    html.Div(
+                        [
+                            html.Label("Quantity", htmlFor=METRIC, className="lw-label"),
+                            dcc.Dropdown(id=METRIC, clearable=False, className="lw-dropdown"),
+                        ],
+                        className="lw-control",
+                    ),
+                    html.Div(
+                        [
+                            html.Div("Range", className="lw-label"),
+                            dcc.RadioItems(
+                                id=RANGE,
+                                options=timerange.preset_options(),
+                                value=timerange.DEFAULT_PRESET,
+                                className="lw-segments",
+                            ),
+                        ],
+                        className="lw-control",
+                    ),
+                ],
+                className="lw-controls",
+            ),
+            html.Div(id=NOTE, className="lw-note"),
+            cards.card(
+                "Actual and expected",
+                dcc.Loading(
+                    dcc.Graph(id=MAIN, config=GRAPH_CONFIG, style={"height": "360px"}), type="dot"
+                ),
+                html.Div(id=CAPTION, className="lw-caption"),
+                note="Drag across the chart to zoom: the server sends finer points for the "
+                "window. Double-click to return to the range.",
+            ),
+            html.Div(
+                [
+                    cards.card(
+                        "Drift from baseline",
+                        dcc.Graph(id=DRIFT, config=GRAPH_CONFIG, style={"height": "260px"}),
+                    ),
+                    cards.card(
+                        "CUSUM",
+                        dcc.Graph(id=CUSUM, config=GRAPH_CONFIG, style={"height": "260px"}),
+                    ),
+                ],
+                className="lw-pair",
+            ),
+            html.Div(id=LINKS, className="lw-links"),
+        ]
+    )
+
+
+clientside(
+    """function(slug) {
+        const el = document.getElementById("unit-main");
+        return el && el.clientWidth ? el.clientWidth : window.innerWidth;
+    }""",
+    Output(WIDTH, "data"),
+    Input(SLUG, "data"),
+)
+
+
+@page_callback(
+    Output(CONTEXT, "data"),
+    Output(TITLE, "children"),
+    Output(METRIC, "options"),
+    Output(METRIC, "value"),
+    Output(LINKS, "children"),
+    Input(SLUG, "data"),
+)
+async def load(slug: str | None, *, client: LostworkClient):
+    """Who the unit is, its plant's clock, and the quantities it can chart."""
+    if not slug:
+        return None, html.H1("No unit chosen"), [], None, None
+    try:
+        context = await unit_context.load(client, slug)
+    except ApiError as exc:
+        return None, [html.H1(slug), cards.problem(exc, doing=f"load unit {slug}")], [], None, None
+    options = metric_options(context)
+    values = [o["value"] for o in options]
+    chosen = DEFAULT_METRIC if DEFAULT_METRIC in values else (values[0] if values else None)
+    title = [
+        html.H1(context.name),
+        html.P(
+            f"{context.kind.replace('_', ' ')} · {context.plant_name} · "
+            f"clock {context.time_zone or 'UTC'}",
+            className="lw-lede",
+        ),
+    ]
+    links = [
+        dcc.Link("Where its exergy goes →", href=f"/second-law?unit={slug}", className="lw-link"),
+        dcc.Link("Its baselines →", href=f"/baselines?unit={slug}", className="lw-link"),
+    ]
+    return context.to_store(), title, options, chosen, links
+
+
+def metric_options(context: UnitContext) -> list[dict[str, str]]:
+    """Dropdown options: the kind's result columns, efficiencies first."""
+    items = [r for r in context.results if r["name"] not in HIDDEN_METRICS]
+    items.sort(key=lambda r: (not r["name"].startswith("eta"), r["name"]))
+    return [{"label": fmt.metric_label(r["name"]), "value": r["name"]} for r in items]
+
+
+@page_callback(
+    Output(WINDOW, "data"),
+    Input(MAIN, "relayoutData"),
+    Input(RANGE, "value"),
+    State(CONTEXT, "data"),
+    State(prefs.STORE, "data"),
+)
+def zoom(relayout, _preset, context_data, choice_data):
+    """A zoom on the main chart narrows the window; a new range or a reset clears it."""
+    if dash.ctx.triggered_id != MAIN:
+        return None
+    asked = timerange.zoom_window(relayout)
+    if asked is None:
+        return dash.no_update
+    if asked is False:
+        return None
+    context = UnitContext.from_store(context_data)
+    zone = fmt.zone_name(prefs.read(choice_data).clock, context.time_zone if context else None)
+    start, end = (timerange.localise(t, zone) for t in asked)
+    return {"start": start.isoformat(), "end": end.isoformat()}
+
+
+def _window(context: UnitContext, preset: str | None, window: dict | None):
+    if isinstance(window, dict) and window.get("start") and window.get("end"):
+        return pd.Timestamp(window["start"]), pd.Timestamp(window["end"])
+    return timerange.window(preset, context.end())
+
+
+async def _fetch(client, context, metric, start, end, points) -> tuple[Results, Results | None]:
+    """The metric with its flags, and separately what the baseline adds (None without one)."""
+    own = [metric] + [m for m in (FLAGS_METRIC, STEADY_METRIC) if m in _names(context)]
+
+    async def baseline() -> Results | None:
+        try:
+            found = await client.results(
+                context.slug, start, end, list(baseline_metrics(metric).values()), max_points=points
+            )
+        except ApiError as exc:
+            if 400 <= exc.status < 500:  # the server does not know these columns (yet)
+                return None
+            raise
+        return found if any(found.has(m) for m in found.metrics) else None
+
+    return await asyncio.gather(
+        client.results(context.slug, start, end, own, max_points=points), baseline()
+    )
+
+
+def _names(context: UnitContext) -> set[str]:
+    return {r["name"] for r in context.results}
+
+
+@page_callback(
+    Output(MAIN, "figure"),
+    Output(DRIFT, "figure"),
+    Output(CUSUM, "figure"),
+    Output(CAPTION, "children"),
+    Output(NOTE, "children"),
+    Input(CONTEXT, "data"),
+    Input(METRIC, "value"),
+    Input(RANGE, "value"),
+    Input(WINDOW, "data"),
+    Input(prefs.STORE, "data"),
+    State(WIDTH, "data"),
+)
+async def draw(context_data, metric, preset, window, choice_data, width, *, client: LostworkClient):
+    """Fetch the window at the chart's resolution and draw the three charts."""
+    context = UnitContext.from_store(context_data)
+    if context is None or not metric:
+        blank = figures.empty_figure("Choose a unit from the overview.")
+        return blank, blank, blank, None, None
+    start, end = _window(context, preset, window)
+    try:
+        own, base = await _fetch(client, context, metric, start, end, timerange.max_points(width))
+    except ApiError as exc:
+        blank = figures.empty_figure("No data.")
+        return blank, blank, blank, None, cards.problem(exc, doing="load results")
+    return render(context, metric, own, base, prefs.read(choice_data), start, end)
+
+
+def render(
+    context: UnitContext,
+    metric: str,
+    own: Results,
+    base: Results | None,
+    choice: prefs.Prefs,
+    start: pd.Timestamp,
+    end: pd.Timestamp,
+):
+    """The three figures, the caption and the note, from fetched results (pure)."""
+    zone = fmt.zone_name(choice.clock, context.time_zone)
+    x_title = fmt.time_axis_title(zone)
+    name = fmt.metric_label(metric, own.labels.get(metric))
+    si_unit = own.units.get(metric) or context.si_unit(metric)
+    if not own.has(metric):
+        blank = figures.empty_figure(f"No {fmt.lower_first(name)} results in this window.")
+        note = cards.empty_state(
+            "No results in this window",
+            f"Nothing computed for {context.name} from "
+            f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)}.",
+        )
+        return blank, blank, blank, None, note
+    actual, unit = fmt.frame_to_display(own.series(metric), metric, si_unit, choice.system)
+    actual.index = fmt.to_zone(actual.index, zone)
+    spans = _spans(own, zone)
+    expected = low = high = None
+    names = baseline_metrics(metric)
+    if base is not None and base.has(names["expected"]):
+        expected = _shown(base, names["expected"], metric, si_unit, choice.system, zone)
+        if base.has(names["low"]) and base.has(names["high"]):
+            low = _shown(base, names["low"], metric, si_unit, choice.system, zone)
+            high = _shown(base, names["high"], metric, si_unit, choice.system, zone)
+    main = figures.actual_expected_figure(
+        actual,
+        name=name,
+        unit=unit,
+        x_title=x_title,
+        expected=expected,
+        expected_low=low,
+        expected_high=high,
+        spans=spans,
+    )
+    main.update_layout(uirevision=f"{context.slug}-{metric}-{start.isoformat()}")
+    drift, cusum, note = _baseline_figures(
+        base, names, metric, name, si_unit, choice.system, zone, x_title
+    )
+    caption = (
+        f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)} · "
+        + timerange.describe_resolution(own.bucket_seconds, len(actual))
+    )
+    return main, drift, cusum, caption, note
+
+
+def _shown(results: Results, column: str, metric: str, si_unit: str, system: str, zone: str):
+    # Expected values and bands are in the metric's own unit, so they convert like it.
+    values = fmt.to_display(results.mean[column], metric, si_unit, system)[0]
+    values.index = fmt.to_zone(values.index, zone)
+    return values
+
+
+def _spans(own: Results, zone: str) -> pd.DataFrame:
+    parts = []
+    if own.has(FLAGS_METRIC):
+        # A bucket's flags are the OR of its intervals; the server returns it as "max".
+        parts.append(figures.flag_spans(own.high[FLAGS_METRIC], own.bucket_seconds))
+    if own.has(STEADY_METRIC):
+        parts.append(figures.steady_spans(own.mean[STEADY_METRIC], own.bucket_seconds))
+    spans = (
+        pd.concat(parts, ignore_index=True)
+        if parts
+        else pd.DataFrame(columns=["start", "end", "reason"])
+    )
+    for column in ("start", "end"):
+        if len(spans):
+            spans[column] = pd.DatetimeIndex(spans[column]).tz_convert(zone)
+    return spans
+
+
+def _baseline_figures(base, names, metric, name, si_unit, system, zone, x_title):
+    if base is None or not base.has(names["drift"]):
+        message = "No baseline fitted yet for this quantity."
+        note = cards.empty_state(
+            "No baseline fitted yet",
+            f"Expected {fmt.lower_first(name)}, drift and CUSUM appear once a baseline is active "
+            "for this unit (fit one on the Baselines page, once the server offers them).",
+        )
+        return figures.empty_figure(message), figures.empty_figure(message), note
+    drift_values, drift_unit = fmt.to_display(
+        base.mean[names["drift"]], names["drift"], si_unit, system
+    )
+    drift_values.index = fmt.to_zone(drift_values.index, zone)
+    drift = figures.drift_figure(drift_values, name="Drift", unit=drift_unit, x_title=x_title)
+    upper = _cusum(base, names["cusum_upper"], zone)
+    lower = _cusum(base, names["cusum_lower"], zone)
+    cusum_unit = fmt.unit_label(base.units.get(names["cusum_upper"]) or "1")
+    if upper is None and lower is None:
+        cusum = figures.empty_figure("The baseline reports no CUSUM.")
+    else:
+        cusum = figures.cusum_figure(upper, lower, unit=cusum_unit, x_title=x_title)
+    return drift, cusum, None
+
+
+def _cusum(base: Results, column: str, zone: str) -> pd.Series | None:
+    if not base.has(column):
+        return None
+    values = base.mean[column].copy()
+    values.index = fmt.to_zone(values.index, zone)
+    return values

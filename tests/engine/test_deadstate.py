@@ -1,0 +1,79 @@
+"""engine.deadstate against the ``iapws`` package (IAPWS97 class, independent of CoolProp).
+
+The default dead state is 25 degC and 101.325 kPa (Bejan, Tsatsaronis and Moran,
+"Thermal Design and Optimization", Wiley 1996, Sec. 3.1). Its water properties are
+those of compressed liquid at that state, IAPWS-IF97 region 1.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from iapws import IAPWS97
+
+from engine.deadstate import P0_DEFAULT_PA, T0_DEFAULT_K, dead_state
+
+KJ = 1e3
+
+
+def _iapws_water(p_pa: float, t_k: float) -> tuple[float, float]:
+    ref = IAPWS97(P=p_pa / 1e6, T=t_k)
+    assert ref.region == 1  # liquid water: the dead state must be in region 1
+    return ref.h * KJ, ref.s * KJ
+
+
+def test_default_constants():
+    assert T0_DEFAULT_K == 298.15
+    assert P0_DEFAULT_PA == 101_325.0
+
+
+def test_default_dead_state_against_iapws():
+    dead = dead_state()
+    h0, s0 = _iapws_water(101_325.0, 298.15)
+    assert isinstance(dead.h0_water_j_per_kg, float)
+    assert isinstance(dead.s0_water_j_per_kg_k, float)
+    assert dead.t0_k == 298.15
+    assert dead.p0_pa == 101_325.0
+    assert dead.h0_water_j_per_kg == pytest.approx(h0, rel=1e-9)
+    assert dead.s0_water_j_per_kg_k == pytest.approx(s0, rel=1e-9)
+    # Steam-table value for compressed water at 25 degC, 1 atm (from memory): about
+    # 104.9 kJ/kg and 0.3672 kJ/(kg K).
+    assert dead.h0_water_j_per_kg == pytest.approx(104.93e3, abs=0.05e3)
+    assert dead.s0_water_j_per_kg_k == pytest.approx(367.2, abs=0.1)
+
+
+def test_per_interval_dead_state():
+    """An ambient temperature per interval gives one dead state per interval."""
+    t0 = np.array([275.15, 288.15, 298.15, 308.15, 318.15])
+    p0 = np.array([99e3, 100e3, 101.325e3, 102e3, 103e3])
+    dead = dead_state(t0, p0)
+    assert isinstance(dead.h0_water_j_per_kg, np.ndarray)
+    assert dead.h0_water_j_per_kg.shape == (5,)
+    np.testing.assert_array_equal(dead.t0_k, t0)
+    np.testing.assert_array_equal(dead.p0_pa, p0)
+    expected = [_iapws_water(p, t) for p, t in zip(p0, t0, strict=True)]
+    np.testing.assert_allclose(dead.h0_water_j_per_kg, [e[0] for e in expected], rtol=1e-9)
+    np.testing.assert_allclose(dead.s0_water_j_per_kg_k, [e[1] for e in expected], rtol=1e-9)
+    # Each row equals the scalar dead state of that row.
+    third = dead_state(298.15, 101.325e3)
+    assert dead.h0_water_j_per_kg[2] == pytest.approx(third.h0_water_j_per_kg, rel=1e-15)
+
+
+def test_scalar_pressure_broadcast_against_temperatures():
+    t0 = pd.Series([283.15, 303.15], index=pd.date_range("2024-07-01", periods=2, freq="h"))
+    dead = dead_state(t0)
+    np.testing.assert_array_equal(dead.p0_pa, [101_325.0, 101_325.0])
+    expected = [_iapws_water(101_325.0, t) for t in t0]
+    np.testing.assert_allclose(dead.h0_water_j_per_kg, [e[0] for e in expected], rtol=1e-9)
+
+
+def test_impossible_dead_state_rows_are_nan():
+    # NaN ambient, a temperature in degC passed as K and a zero pressure: those rows are
+    # NaN, the good row (25 degC) keeps its value.
+    dead = dead_state(np.array([298.15, np.nan, 25.0, 298.15]), np.array([101325.0] * 3 + [0.0]))
+    h0, s0 = _iapws_water(101_325.0, 298.15)
+    assert dead.h0_water_j_per_kg[0] == pytest.approx(h0, rel=1e-9)
+    assert dead.s0_water_j_per_kg_k[0] == pytest.approx(s0, rel=1e-9)
+    assert np.isnan(dead.h0_water_j_per_kg[1:]).all()
+    assert np.isnan(dead.s0_water_j_per_kg_k[1:]).all()

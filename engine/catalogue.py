@@ -3,9 +3,10 @@
 A kind declares, as data, its measurement roles (each with its SI unit, so that the
 service can check a tag's unit of measure against the role's dimension), repeatable
 port groups (turbine extractions, HRSG pressure levels), parameters with defaults and
-units, the result columns it produces and the model function that computes them. The
-service validates plant configurations against this catalogue and calls the model; it
-needs no special case per kind.
+units, name-valued text parameters (a refrigerant, chosen from a list), the result
+columns it produces and the model function that computes them. The service validates
+plant configurations against this catalogue and calls the model; it needs no special
+case per kind.
 
 Model functions share one signature::
 
@@ -86,6 +87,31 @@ class Parameter:
 
 
 @dataclass(frozen=True)
+class TextParameter:
+    """A configuration value that is a name from a fixed list (a refrigerant, a product).
+
+    A name has no unit and no conversion, so it is declared apart from the numeric
+    :class:`Parameter` s; the model reads it from :attr:`ModelContext.text_parameters`.
+
+    Attributes
+    ----------
+    name : str
+        Parameter name, as in plant files.
+    choices : tuple of str
+        Every value the parameter may take.
+    default : str or None
+        The value used when none is given; None makes the parameter required.
+    description : str
+        One line for people.
+    """
+
+    name: str
+    choices: tuple[str, ...]
+    default: str | None
+    description: str = ""
+
+
+@dataclass(frozen=True)
 class ResultColumn:
     """A result a unit kind computes, in SI units (``"1"`` for a fraction)."""
 
@@ -104,10 +130,14 @@ class ModelContext:
         Dead state, scalar or one value per interval.
     fuel : FuelProperties or None
         The fuel bound to the unit, for kinds that burn one.
+    text_parameters : Mapping[str, str]
+        The unit's name-valued parameters (:class:`TextParameter`), defaults overlaid
+        (:meth:`UnitKind.resolve_text_parameters`); empty for kinds that declare none.
     """
 
     dead: DeadState
     fuel: FuelProperties | None = None
+    text_parameters: Mapping[str, str] = field(default_factory=dict)
 
 
 ModelFunction = Callable[[pd.DataFrame, Mapping[str, float], ModelContext], pd.DataFrame]
@@ -139,10 +169,20 @@ class UnitKind:
     description: str = ""
     alternatives: tuple[tuple[str, ...], ...] = ()
     """Groups of optional roles of which at least one must be bound (mass or volume flow)."""
+    text_parameters: tuple[TextParameter, ...] = ()
+    """Name-valued parameters (a refrigerant); numeric ones are in ``parameters``."""
     _role_index: dict[str, Role] = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         self._role_index.update({r.name: r for r in self.roles})
+        numeric = {p.name for p in self.parameters}
+        for spec in self.text_parameters:
+            if spec.name in numeric:
+                raise ValueError(f"{self.name}: parameter {spec.name!r} declared twice")
+            if spec.default is not None and spec.default not in spec.choices:
+                raise ValueError(
+                    f"{self.name}: default {spec.default!r} of {spec.name!r} is not a choice"
+                )
 
     def role(self, bound: str) -> Role | None:
         """The role a bound name refers to (plain or port-group), or None if unknown."""
@@ -163,8 +203,21 @@ class UnitKind:
         values.update(given)
         return values
 
+    def text_parameter(self, name: str) -> TextParameter | None:
+        return next((p for p in self.text_parameters if p.name == name), None)
+
+    def resolve_text_parameters(self, given: Mapping[str, str]) -> dict[str, str]:
+        """Declared text defaults overlaid with the given values (validated separately)."""
+        values = {p.name: p.default for p in self.text_parameters if p.default is not None}
+        values.update(given)
+        return values
+
     def validate(
-        self, bound_roles: Iterable[str], parameters: Mapping[str, float], has_fuel: bool
+        self,
+        bound_roles: Iterable[str],
+        parameters: Mapping[str, float],
+        has_fuel: bool,
+        text_parameters: Mapping[str, str] | None = None,
     ) -> list[Problem]:
         """Every problem with a configuration of this kind; empty when it is usable."""
         problems: list[Problem] = []
@@ -225,6 +278,20 @@ class UnitKind:
             if spec.default is None and spec.name not in parameters:
                 problems.append(
                     Problem(f"parameter {spec.name!r}", "required (no default) but not given")
+                )
+        texts = text_parameters or {}
+        for name, text in texts.items():
+            text_spec = self.text_parameter(name)
+            if text_spec is None:
+                known = ", ".join(p.name for p in self.text_parameters) or "none"
+                problems.append(Problem(f"parameter {name!r}", f"unknown name; known: {known}"))
+            elif text not in text_spec.choices:
+                choices = ", ".join(text_spec.choices)
+                problems.append(Problem(f"parameter {name!r}", f"{text!r} is not one of {choices}"))
+        for text_spec in self.text_parameters:
+            if text_spec.default is None and text_spec.name not in texts:
+                problems.append(
+                    Problem(f"parameter {text_spec.name!r}", "required (no default) but not given")
                 )
         for group in self.alternatives:
             if not any(name in bound for name in group):

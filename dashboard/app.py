@@ -202,7 +202,7 @@ def mount(
     ``/_dash-*`` and its page paths). Without ``api_base_url`` the dashboard's requests
     go to ``fastapi_app`` in-process. The key is, in order: ``api_key``,
     ``fastapi_app.state.dashboard_api_key`` at request time, the environment variable
-    ``LOSTWORK_DASHBOARD_API_KEY``.
+    ``LOSTWORK_DASHBOARD_API_KEY``. The Dash app is kept as ``fastapi_app.state.dashboard``.
     """
 
     def key() -> str | None:
@@ -216,4 +216,6 @@ def mount(
         client = LostworkClient(api_base_url, key)
     else:
         client = LostworkClient(IN_PROCESS_URL, key, transport=httpx.ASGITransport(app=fastapi_app))
-    return create_dash(server=fastapi_app, client=client)
+    dash_app = create_dash(server=fastapi_app, client=client)
+    fastapi_app.state.dashboard = dash_app
+    return dash_app

@@ -235,7 +235,7 @@ def _step(index: pd.DatetimeIndex, bucket_seconds: float | None) -> pd.Timedelta
     if bucket_seconds:
         return pd.Timedelta(seconds=float(bucket_seconds))
     if len(index) > 1:
-        return pd.Timedelta(np.median(np.diff(index.asi8)), unit="ns")
+        return pd.Timedelta(pd.Series(index).diff().median())
     return pd.Timedelta(0)
 
 

@@ -256,9 +256,19 @@ def time_axis_title(zone: str) -> str:
     return "Time (UTC)" if zone == "UTC" else f"Time ({zone}, local)"
 
 
+def present(value) -> bool:
+    """False for None, NaN and NaT (what a missing field becomes in a DataFrame)."""
+    if value is None:
+        return False
+    try:
+        return not bool(pd.isna(value))
+    except (TypeError, ValueError):  # arrays and other containers are values
+        return True
+
+
 def format_timestamp(ts, zone: str) -> str:
     """A UTC instant as ``2026-11-30 14:05 CET`` in the given zone; ``"—"`` if missing."""
-    if ts is None or ts is pd.NaT:
+    if not present(ts):
         return "—"
     stamp = pd.Timestamp(ts)
     if stamp.tzinfo is None:
@@ -269,7 +279,7 @@ def format_timestamp(ts, zone: str) -> str:
 
 def format_age(ts, now: dt.datetime | None = None) -> str:
     """How old a timestamp is, coarsely: ``"45 s"``, ``"12 min"``, ``"3 h"``, ``"4 d"``."""
-    if ts is None or ts is pd.NaT:
+    if not present(ts):
         return "no data"
     stamp = pd.Timestamp(ts)
     if stamp.tzinfo is None:
@@ -280,7 +290,7 @@ def format_age(ts, now: dt.datetime | None = None) -> str:
 
 def age_seconds(ts, now: dt.datetime | None = None) -> float:
     """Age of a timestamp in seconds (inf when missing), for sorting by freshness."""
-    if ts is None or ts is pd.NaT:
+    if not present(ts):
         return math.inf
     stamp = pd.Timestamp(ts)
     if stamp.tzinfo is None:

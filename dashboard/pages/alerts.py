@@ -115,6 +115,7 @@ def rows(alerts: pd.DataFrame, zone_of: dict[str, str | None], clock: str) -> li
     out = []
     for item in alerts.to_dict("records"):
         zone = fmt.zone_name(clock, zone_of.get(item.get("unit")))
+        item = {k: v for k, v in item.items() if fmt.present(v)}
         acked = item.get("acknowledged_at")
         out.append(
             {

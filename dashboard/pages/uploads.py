@@ -127,19 +127,27 @@ def decode(contents: str) -> bytes:
 async def send(contents, filename, plant, mode, *, client: LostworkClient):
     """Send the dropped file and show the server's report (or its refusal)."""
     if not contents:
-        return None, []
+        return None, [], HIDDEN
     if not plant:
-        return cards.problem(ValueError("choose the plant first"), doing="upload"), []
+        return cards.problem(ValueError("choose the plant first"), doing="upload"), [], HIDDEN
     try:
         data = decode(contents)
         report = await client.upload(
             plant, filename or "shift-log.csv", data, mode=mode or "partial"
         )
     except ApiError as exc:
-        return refused(exc, filename), error_rows(exc.problem.get("errors"))
+        return refused(exc, filename), *_errors(exc.problem.get("errors"))
     except ValueError as exc:
-        return cards.problem(exc, doing="read the file"), []
-    return summary(report), error_rows(report.get("errors"))
+        return cards.problem(exc, doing="read the file"), [], HIDDEN
+    return summary(report), *_errors(report.get("errors"))
+
+
+HIDDEN = {"display": "none"}
+
+
+def _errors(errors: Any) -> tuple[list[dict[str, Any]], dict[str, str] | None]:
+    found = error_rows(errors)
+    return found, (None if found else HIDDEN)
 
 
 def error_rows(errors: Any) -> list[dict[str, Any]]:

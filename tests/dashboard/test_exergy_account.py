@@ -1,0 +1,68 @@
+"""The exergy account closes: input = product + destroyed + lost (+ a shown mismatch)."""
+
+from __future__ import annotations
+
+import pytest
+
+from dashboard.exergy_account import build_account, wanted_metrics
+
+
+def test_boiler_account_from_its_result_columns():
+    # Boiler columns (engine.units.boiler): the exergy balance gives destroyed-and-lost
+    # = fuel exergy - water exergy gain; T0 Sgen is the destruction (Gouy-Stodola);
+    # the rest leaves the unit unused.
+    means = {
+        "fuel_exergy_w": 20.0e6,
+        "water_exergy_gain_w": 7.0e6,
+        "exergy_destroyed_and_lost_w": 13.0e6,
+        "lost_work_w": 11.8e6,
+        "eta_1": 0.9,
+    }
+    account = build_account(means)
+    assert account.input_label == "Fuel exergy"
+    assert account.product_label == "Water and steam exergy gain"
+    assert account.destroyed == {"Destroyed inside the unit (T0·Sgen)": 11.8e6}
+    assert account.lost == {"Lost to the surroundings": pytest.approx(1.2e6)}
+    assert account.mismatch_w == pytest.approx(0.0, abs=1e-6)
+    assert [t[0] for t in account.terms()] == ["product", "destroyed", "lost"]
+    assert sum(t[2] for t in account.terms()) == pytest.approx(account.input_w)
+
+
+def test_detailed_terms_are_used_when_reported():
+    means = {
+        "fuel_exergy_w": 100.0,
+        "water_exergy_gain_w": 40.0,
+        "exergy_destroyed_combustion_w": 30.0,
+        "exergy_destroyed_heat_transfer_w": 20.0,
+        "exergy_lost_flue_gas_w": 8.0,
+        "lost_work_w": 50.0,
+    }
+    account = build_account(means)
+    assert account.destroyed == {"Destroyed: combustion": 30.0, "Destroyed: heat transfer": 20.0}
+    assert account.lost == {"Lost: flue gas": 8.0}
+    # 100 - 40 - 50 - 8 = 2 W not accounted for: drawn as its own term
+    assert account.terms()[-1] == ("mismatch", "Balance mismatch", pytest.approx(2.0))
+
+
+def test_block_account_uses_net_power_as_product():
+    account = build_account(
+        {
+            "fuel_exergy_w": 10.0,
+            "net_power_w": 3.5,
+            "exergy_destroyed_and_lost_w": 6.5,
+            "lost_work_w": 6.5,
+        }
+    )
+    assert account.product_label == "Net power"
+    assert account.lost == {}
+    assert account.mismatch_w == pytest.approx(0.0)
+
+
+def test_no_account_without_input_or_product():
+    assert build_account({"water_exergy_gain_w": 1.0}) is None
+    assert build_account({"fuel_exergy_w": float("nan"), "water_exergy_gain_w": 1.0}) is None
+
+
+def test_wanted_metrics_picks_exergy_columns():
+    names = ["eta_1", "fuel_exergy_w", "water_exergy_gain_w", "exergy_lost_stack_w", "sgen_w_per_k"]
+    assert wanted_metrics(names) == ["fuel_exergy_w", "water_exergy_gain_w", "exergy_lost_stack_w"]

@@ -1,0 +1,420 @@
+"""Callback-level tests: each page's callbacks called directly with a client double.
+
+The double (tests/dashboard/fakes.py) is our own client class with its HTTP call
+replaced, so parsing and error handling run for real; the numbers are invented.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import base64
+
+import pandas as pd
+import pytest
+from dash._callback_context import context_value
+from dash._utils import AttributeDict
+
+from dashboard.app import highlight_nav, remember_choices
+from dashboard.client import ApiError
+from dashboard.pages import alerts, baselines, overview, second_law, unit, uploads
+from tests.dashboard import fakes
+
+US = {"system": "us", "clock": "utc"}
+SI = {"system": "si", "clock": "plant"}
+
+
+def run(coro):
+    return asyncio.run(coro)
+
+
+def text_of(component) -> str:
+    """All text inside a Dash component tree, joined by single spaces."""
+    return " ".join(_text(component).split())
+
+
+def _text(component) -> str:
+    if component is None:
+        return ""
+    if isinstance(component, str | int | float):
+        return str(component)
+    if isinstance(component, list | tuple):
+        return " ".join(_text(c) for c in component)
+    return _text(getattr(component, "children", None))
+
+
+# -- shell -------------------------------------------------------------------------------
+
+
+def test_choices_are_validated_into_the_store():
+    assert remember_choices("us", "utc") == {"system": "us", "clock": "utc"}
+    assert remember_choices("imperial", None) == {"system": "si", "clock": "plant"}
+
+
+def test_navigation_marks_the_page_on_screen():
+    classes = highlight_nav("/units/boiler-1")
+    assert classes[0] == "lw-nav-link lw-active"  # unit pages belong to the overview
+    assert classes.count("lw-nav-link lw-active") == 1
+    assert highlight_nav("/uploads")[-1] == "lw-nav-link lw-active"
+
+
+# -- overview ----------------------------------------------------------------------------
+
+
+def test_overview_rows_in_display_units_most_costly_first():
+    tiles, data, columns, note = run(overview.refresh(SI, None, client=fakes.FakeClient()))
+    assert [r["unit"] for r in data] == ["[Boiler 1](/units/boiler-1)", "[CHP block](/units/chp)"]
+    boiler = data[0]
+    minutes = fakes.LATEST_T.value / 60e9
+    assert boiler["eta_1"] == pytest.approx(100 * fakes.value("eta_1", minutes))
+    assert boiler["headroom_w"] == pytest.approx(1.5)  # 1.5e6 W in MW
+    assert boiler["cost"] == 12.5
+    assert boiler["last"] == "2026-12-01 00:59 CET"  # 23:59 UTC in Vienna, winter
+    headers = {c["id"]: c["name"] for c in columns}
+    assert headers["eta_1"] == "η₁ [%]"
+    assert headers["headroom_w"] == "Headroom [MW]"
+    assert headers["cost"] == "Cost of drift [EUR/h]"
+    assert "alerts" not in headers  # the server has no alerts yet ...
+    assert note == "Alerts are not set up on this server yet."  # ... and the page says so
+    assert "12.5 EUR/h" in text_of(tiles)
+
+
+def test_overview_in_us_units_and_utc():
+    _, data, columns, _ = run(overview.refresh(US, None, client=fakes.FakeClient()))
+    headers = {c["id"]: c["name"] for c in columns}
+    assert headers["headroom_w"] == "Headroom [MMBtu/h]"
+    # 1.5 MW = 1.5e6 * 3600 / 1055.05585262 / 1e6 MMBtu/h (IT Btu, NIST SP 811 B.9)
+    assert data[0]["headroom_w"] == pytest.approx(1.5e6 * 3600 / 1055.05585262 / 1e6)
+    assert data[0]["last"] == "2026-11-30 23:59 UTC"
+
+
+def test_overview_counts_open_alerts_when_the_server_has_them():
+    client = fakes.FakeClient(
+        alerts=[
+            {"id": 1, "unit": "boiler-1", "status": "firing"},
+            {"id": 2, "unit": "boiler-1", "status": "firing"},
+            {"id": 3, "unit": "chp", "status": "resolved"},
+        ]
+    )
+    tiles, data, columns, note = run(overview.refresh(SI, None, client=client))
+    assert {r["unit"]: r["alerts"] for r in data} == {
+        "[Boiler 1](/units/boiler-1)": 2,
+        "[CHP block](/units/chp)": 0,
+    }
+    assert note is None
+    assert "Open alerts 2" in text_of(tiles)
+
+
+def test_overview_without_units_says_what_to_do():
+    tiles, data, _, _ = run(overview.refresh(SI, None, client=fakes.FakeClient(empty=True)))
+    assert data == []
+    assert "lostwork plant apply FILE" in text_of(tiles)
+
+
+# -- unit page ---------------------------------------------------------------------------
+
+
+def test_unit_load_offers_the_kinds_results_efficiencies_first():
+    context, title, options, chosen, links = run(unit.load("boiler-1", client=fakes.FakeClient()))
+    assert chosen == "eta_1"
+    assert [o["value"] for o in options][:2] == ["eta_1", "eta_2"]
+    assert "flags" not in [o["value"] for o in options]
+    assert context["time_zone"] == "Europe/Vienna"
+    assert "Boiler 1" in text_of(title)
+    assert [link.href for link in links] == [
+        "/second-law?unit=boiler-1",
+        "/baselines?unit=boiler-1",
+    ]
+
+
+def test_unit_load_of_an_unknown_unit_names_it():
+    context, title, *_ = run(unit.load("boiler-9", client=fakes.FakeClient()))
+    assert context is None
+    assert "no unit 'boiler-9' on this server" in text_of(title)
+
+
+def _draw(client, *, preset="7d", window=None, choice=SI, width=800, metric="eta_1"):
+    context = run(unit.load("boiler-1", client=client))[0]
+    return run(unit.draw(context, metric, preset, window, choice, width, client=client))
+
+
+def test_unit_draw_without_baseline_says_so_and_shades_flags():
+    client = fakes.FakeClient(flagged=(10, 20))
+    main, drift, cusum, caption, note = _draw(client)
+    assert "No baseline fitted yet" in text_of(note)
+    assert drift.layout.annotations[0].text == "No baseline fitted yet for this quantity."
+    assert main.layout.yaxis.title.text == "First-law efficiency (HHV) [%]"
+    assert main.layout.xaxis.title.text == "Time (Europe/Vienna, local)"
+    assert len([s for s in main.layout.shapes if s.type == "rect"]) == 1
+    assert "Negative entropy generation (1)" in [t.name for t in main.data]
+    # resolution follows the chart width: two points per pixel
+    _, _, kwargs = next(c for c in client.calls if c[1].endswith("/results"))
+    assert kwargs["params"]["max_points"] == 1600
+    assert "1,600 points" in caption
+
+
+def test_unit_draw_with_baseline_shows_expected_drift_and_cusum():
+    main, drift, cusum, _, note = _draw(fakes.FakeClient(baseline=True))
+    assert note is None
+    assert "First-law efficiency (HHV), expected" in [t.name for t in main.data]
+    assert drift.layout.yaxis.title.text == "Drift [% points]"
+    assert [t.name for t in cusum.data] == ["CUSUM, upper", "CUSUM, lower"]
+
+
+def test_unit_draw_in_us_units_and_utc_converts_the_hover_values():
+    main, *_ = _draw(fakes.FakeClient(), choice=US, metric="heat_absorbed_w")
+    line = next(t for t in main.data if t.name == "Heat absorbed, actual")
+    assert main.layout.yaxis.title.text == "Heat absorbed [MMBtu/h]"
+    assert main.layout.xaxis.title.text == "Time (UTC)"
+    assert line.hovertemplate.endswith(" MMBtu/h")
+    first = pd.Timestamp(line.x[0])
+    minutes = first.tz_convert("UTC").value / 60e9 if first.tzinfo else None
+    assert str(first.tzinfo) == "UTC"
+    assert line.y[0] == pytest.approx(
+        fakes.value("heat_absorbed_w", minutes) * 3600 / 1055.05585262 / 1e6
+    )
+
+
+def test_range_presets_and_zoom_windows_change_what_is_asked():
+    client = fakes.FakeClient()
+    _draw(client, preset="6h")
+    params = [c[2]["params"] for c in client.calls if c[1].endswith("/results")][-1]
+    assert (pd.Timestamp(params["end"]) - pd.Timestamp(params["start"])) == pd.Timedelta(hours=6)
+    assert pd.Timestamp(params["end"]) == fakes.LATEST_T
+    window = {"start": "2026-11-30T10:00:00+00:00", "end": "2026-11-30T11:00:00+00:00"}
+    _draw(client, preset="1y", window=window)
+    params = [c[2]["params"] for c in client.calls if c[1].endswith("/results")][-1]
+    assert (params["start"], params["end"]) == ("2026-11-30T10:00:00Z", "2026-11-30T11:00:00Z")
+
+
+def _triggered(prop_id: str):
+    return context_value.set(AttributeDict(triggered_inputs=[{"prop_id": prop_id, "value": None}]))
+
+
+def test_zoom_on_the_chart_becomes_a_utc_window():
+    token = _triggered(f"{unit.MAIN}.relayoutData")
+    try:
+        context = {
+            "slug": "boiler-1",
+            "name": "B",
+            "kind": "boiler",
+            "plant": "p",
+            "time_zone": "Europe/Vienna",
+        }
+        relayout = {"xaxis.range[0]": "2026-11-30 11:00", "xaxis.range[1]": "2026-11-30 12:30"}
+        assert unit.zoom(relayout, "7d", context, SI) == {
+            "start": "2026-11-30T10:00:00+00:00",  # 11:00 CET
+            "end": "2026-11-30T11:30:00+00:00",
+        }
+        assert unit.zoom({"xaxis.autorange": True}, "7d", context, SI) is None
+    finally:
+        context_value.reset(token)
+
+
+def test_a_new_range_clears_the_zoom():
+    token = _triggered(f"{unit.RANGE}.value")
+    try:
+        assert unit.zoom({"xaxis.range[0]": "2026-11-30 11:00"}, "30d", None, SI) is None
+    finally:
+        context_value.reset(token)
+
+
+# -- second law --------------------------------------------------------------------------
+
+
+def test_second_law_account_closes_and_is_tabled():
+    client = fakes.FakeClient()
+    options, chosen = run(second_law.unit_choices("boiler-1", client=client))
+    assert chosen == "boiler-1" and len(options) == 2
+    tiles, waterfall, sankey, data, columns, note = run(
+        second_law.draw("boiler-1", "24h", SI, client=client)
+    )
+    shares = {r["where"]: r["share"] for r in data}
+    assert shares["Fuel exergy"] == 100.0
+    assert shares["Water and steam exergy gain"] == pytest.approx(35.0)
+    assert shares["Destroyed inside the unit (T0·Sgen)"] == pytest.approx(59.0)
+    assert shares["Lost to the surroundings"] == pytest.approx(6.0)
+    assert sum(v for k, v in shares.items() if k != "Fuel exergy") == pytest.approx(100.0)
+    assert {c["id"]: c["name"] for c in columns}["value"] == "Exergy [MW]"
+    assert waterfall.layout.yaxis.title.text == "Exergy flow [MW]"
+    assert sum(sankey.data[0].link.value) == pytest.approx(20.0)
+    # one bucket over the period: the server averages it
+    params = [c[2]["params"] for c in client.calls if c[1].endswith("/results")][-1]
+    assert params["max_points"] == 1
+    assert "Recoverable headroom" in text_of(tiles)
+
+
+def test_second_law_in_us_units():
+    _, waterfall, _, data, columns, _ = run(
+        second_law.draw("boiler-1", "24h", US, client=fakes.FakeClient())
+    )
+    assert waterfall.layout.yaxis.title.text == "Exergy flow [MMBtu/h]"
+    assert data[0]["value"] == pytest.approx(20.0e6 * 3600 / 1055.05585262 / 1e6)
+
+
+# -- alerts ------------------------------------------------------------------------------
+
+
+def test_alerts_empty_state_until_the_server_has_them():
+    data, _, empty, style, _ = run(
+        alerts.load("firing", None, None, 0, SI, client=fakes.FakeClient())
+    )
+    assert data == []
+    assert "No alerts on this server yet" in text_of(empty)
+    assert style == {"display": "none"}
+
+
+ALERTS = [
+    {
+        "id": 7,
+        "unit": "boiler-1",
+        "metric": "eta_1",
+        "severity": "warning",
+        "status": "firing",
+        "began_at": "2026-11-30T20:00:00Z",
+        "message": "eta_1 below expected",
+    },
+    {
+        "id": 8,
+        "unit": "chp",
+        "metric": "eta_2",
+        "severity": "info",
+        "status": "resolved",
+        "began_at": "2026-11-29T20:00:00Z",
+        "acknowledged_at": "2026-11-29T21:00:00Z",
+        "acknowledged_by": "shift lead",
+        "message": "stale",
+    },
+]
+
+
+def test_alerts_listed_with_plant_times():
+    data, _, empty, style, options = run(
+        alerts.load("all", None, None, 0, SI, client=fakes.FakeClient(alerts=ALERTS))
+    )
+    assert empty is None and style is None
+    assert [r["id"] for r in data] == ["7", "8"]
+    assert data[0]["began"] == "2026-11-30 21:00 CET"
+    assert data[0]["metric"] == "First-law efficiency (HHV)"
+    assert data[1]["acknowledged"] == "2026-11-29 22:00 CET by shift lead"
+    assert [o["value"] for o in options] == ["boiler-1", "chp"]
+    firing, *_ = run(
+        alerts.load("firing", None, None, 0, SI, client=fakes.FakeClient(alerts=ALERTS))
+    )
+    assert [r["id"] for r in firing] == ["7"]
+
+
+def test_acknowledge_needs_a_selection_and_a_note_then_sends_it():
+    client = fakes.FakeClient(alerts=ALERTS)
+    rows = [{"id": "7"}, {"id": "8"}]
+    assert run(alerts.acknowledge(1, [], rows, "x", 0, client=client)) == (
+        "Select an alert first.",
+        0,
+    )
+    assert run(alerts.acknowledge(1, [0], rows, "  ", 0, client=client)) == (
+        "Write a note: what was done or decided.",
+        0,
+    )
+    message, count = run(alerts.acknowledge(1, [1], rows, " valve re-seated ", 0, client=client))
+    assert (message, count) == ("Alert 8 acknowledged.", 1)
+    assert client.calls[-1][:2] == ("POST", "/alerts/8/acknowledge")
+    assert client.calls[-1][2]["json"] == {"note": "valve re-seated"}
+
+
+# -- uploads -----------------------------------------------------------------------------
+
+REPORT = {
+    "id": 3,
+    "plant": "tarnwick-mill",
+    "filename": "shift.csv",
+    "status": "stored",
+    "stored": 5,
+    "replaced": 0,
+    "unchanged": 0,
+    "rejected": 1,
+    "errors": [{"row": 3, "column": "FW-FLOW [t/h]", "value": "abc", "message": "not a number"}],
+    "notices": [],
+    "units_recomputed": ["boiler-1", "chp"],
+}
+
+
+def _data_url(text: str) -> str:
+    return "data:text/csv;base64," + base64.b64encode(text.encode()).decode()
+
+
+def test_upload_shows_counts_errors_and_recomputed_units():
+    client = fakes.FakeClient(upload_answer=REPORT)
+    result, errors, style = run(
+        uploads.send(
+            _data_url("time,FW-FLOW\n"), "shift.csv", "tarnwick-mill", "partial", client=client
+        )
+    )
+    assert errors == [
+        {"row": 3, "column": "FW-FLOW [t/h]", "value": "abc", "message": "not a number"}
+    ]
+    assert style is None
+    assert "Recomputing: boiler-1 , chp" in text_of(result)
+    sent = client.calls[-1][2]
+    assert sent["files"]["file"][1] == b"time,FW-FLOW\n"
+    assert sent["data"] == {"plant": "tarnwick-mill", "mode": "partial"}
+
+
+def test_upload_refused_shows_why_and_the_rows():
+    refusal = ApiError(
+        422,
+        "Invalid upload",
+        "nothing stored: 1 problem",
+        {"errors": [{"row": 2, "column": "FW-FLOW", "message": "not a number", "value": "x"}]},
+    )
+    client = fakes.FakeClient(upload_answer=refusal)
+    result, errors, style = run(
+        uploads.send(_data_url("x"), "bad.csv", "tarnwick-mill", "all_or_nothing", client=client)
+    )
+    assert "bad.csv was refused: Invalid upload" in text_of(result)
+    assert errors[0]["row"] == 2 and style is None
+
+
+def test_upload_without_plant_or_with_garbage():
+    client = fakes.FakeClient(upload_answer=REPORT)
+    result, errors, _ = run(uploads.send(_data_url("x"), "a.csv", None, "partial", client=client))
+    assert "choose the plant first" in text_of(result)
+    result, errors, _ = run(
+        uploads.send("not a data url", "a.csv", "tarnwick-mill", "partial", client=client)
+    )
+    assert "could not be read" in text_of(result)
+    assert not [c for c in client.calls if c[1] == "/uploads"]
+
+
+# -- baselines ---------------------------------------------------------------------------
+
+
+def test_baselines_empty_state_until_the_server_has_them():
+    data, state, style = run(baselines.load("boiler-1", SI, client=fakes.FakeClient()))
+    assert data == [] and style == {"display": "none"}
+    assert "No baseline fitted yet" in text_of(state)
+
+
+def test_baselines_rows_with_guideline_14_statistics():
+    items = [
+        {
+            "version": 2,
+            "metric": "eta_1",
+            "start": "2025-11-01",
+            "end": "2025-11-30",
+            "model": "linear in load",
+            "active": True,
+            "statistics": {
+                "n": 4000,
+                "r2": 0.81,
+                "cv_rmse": 0.012,
+                "nmbe": -0.001,
+                "meets_guideline_14": True,
+            },
+        }
+    ]
+    data, state, style = run(
+        baselines.load("boiler-1", SI, client=fakes.FakeClient(baselines=items))
+    )
+    assert state is None and style is None
+    assert data[0]["cv_rmse"] == pytest.approx(1.2)
+    assert data[0]["nmbe"] == pytest.approx(-0.1)
+    assert (data[0]["verdict"], data[0]["active"]) == ("meets", "active")

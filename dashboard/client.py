@@ -56,6 +56,8 @@ class Results:
     high: pd.DataFrame
     units: dict[str, str] = field(default_factory=dict)
     labels: dict[str, str] = field(default_factory=dict)
+    count: pd.DataFrame | None = None
+    """Intervals with a value in each bucket, when the server says."""
 
     @property
     def metrics(self) -> list[str]:
@@ -216,6 +218,11 @@ class LostworkClient:
         body = await self._call("GET", f"/units/{unit}/results", params=params)
         return parse_results(body)
 
+    async def metrics(self, unit: str) -> list[dict[str, Any]]:
+        """The metrics a unit has: ``metric``, ``unit`` (SI), ``us_unit``, ``label``,
+        ``description``, ``aggregate``."""
+        return _items(await self._call("GET", f"/units/{unit}/metrics"), "metrics")
+
     async def latest(self, unit: str) -> dict[str, Any]:
         """The unit's most recent interval: ``t`` (UTC Timestamp or None), ``values``,
         ``units``."""
@@ -291,7 +298,7 @@ def _problem_detail(problem: Mapping[str, Any]) -> str | None:
 
 def parse_results(body: Mapping[str, Any]) -> Results:
     """The JSON of ``GET /units/{unit}/results`` as :class:`Results`."""
-    means, lows, highs = {}, {}, {}
+    means, lows, highs, counts = {}, {}, {}, {}
     units: dict[str, str] = {}
     labels: dict[str, str] = {}
     for item in body.get("series") or []:
@@ -305,6 +312,8 @@ def parse_results(body: Mapping[str, Any]) -> Results:
         highs[metric] = pd.Series(
             item.get("max") or item.get("mean") or [], index=index, dtype=float
         )
+        if item.get("count") is not None:
+            counts[metric] = pd.Series(item["count"], index=index, dtype=float)
         units[metric] = item.get("unit") or "1"
         if item.get("label"):
             labels[metric] = item["label"]
@@ -325,6 +334,7 @@ def parse_results(body: Mapping[str, Any]) -> Results:
         high=frame(highs),
         units=units,
         labels=labels,
+        count=frame(counts) if counts else None,
     )
 
 

@@ -16,7 +16,13 @@ from dashboard.formatting import metric_label
 
 INPUT_METRICS = ("fuel_exergy_w", "exergy_in_w", "steam_exergy_drop_w")
 """Result columns that are a unit's exergy input, in order of preference."""
-PRODUCT_METRICS = ("water_exergy_gain_w", "net_power_w", "shaft_power_w", "exergy_product_w")
+PRODUCT_METRICS = (
+    "water_exergy_gain_w",
+    "net_power_w",
+    "generator_power_w",
+    "shaft_power_w",
+    "exergy_product_w",
+)
 """Result columns that are a unit's exergy product, in order of preference."""
 TOTAL_METRIC = "exergy_destroyed_and_lost_w"
 GOUY_STODOLA_METRIC = "lost_work_w"

@@ -29,6 +29,8 @@ class UnitContext:
     """Result columns of the kind: ``name``, ``unit`` (SI), ``description``."""
     latest: str | None = None
     """Time of the most recent result (RFC 3339), None before the first one."""
+    interval_seconds: int = 60
+    """The plant's averaging interval. [s]"""
 
     def to_store(self) -> dict[str, Any]:
         return asdict(self)
@@ -46,8 +48,11 @@ class UnitContext:
         return default
 
     def end(self) -> pd.Timestamp:
-        """Where time windows end: the latest result, or now before the first one."""
-        return pd.Timestamp(self.latest) if self.latest else pd.Timestamp.now(tz="UTC").floor("min")
+        """Where time windows end (exclusive): just after the latest result's interval,
+        or now before the first result."""
+        if self.latest:
+            return pd.Timestamp(self.latest) + pd.Timedelta(seconds=self.interval_seconds)
+        return pd.Timestamp.now(tz="UTC").floor("min")
 
 
 def kind_results(catalogue: Any, kind: str) -> list[dict[str, str]]:
@@ -89,10 +94,9 @@ async def load(client: LostworkClient, slug: str) -> UnitContext:
     if match.empty:
         raise ApiError(404, "Unknown unit", f"no unit {slug!r} on this server")
     unit = match.iloc[0].to_dict()
-    plant, latest = await asyncio.gather(client.plant(unit["plant"]), _latest_time(client, slug))
-    results = unit.get("results")
-    if not isinstance(results, list):  # a server that does not list them per unit
-        results = kind_results(await client.catalogue(), str(unit.get("kind") or ""))
+    plant, latest, results = await asyncio.gather(
+        client.plant(unit["plant"]), _latest_time(client, slug), _metrics(client, unit)
+    )
     return UnitContext(
         slug=slug,
         name=str(unit.get("name") or slug),
@@ -111,7 +115,21 @@ async def load(client: LostworkClient, slug: str) -> UnitContext:
             if isinstance(r, dict) and r.get("name")
         ],
         latest=latest.isoformat() if latest is not None else None,
+        interval_seconds=int(plant.get("interval_seconds") or 60),
     )
+
+
+async def _metrics(client: LostworkClient, unit: dict[str, Any]) -> list[dict[str, Any]]:
+    """What the server computes for the unit, pipeline and baseline columns included."""
+    try:
+        found = await client.metrics(unit["slug"])
+        return [{"name": m.get("metric"), **m} for m in found]
+    except ApiError as exc:
+        if exc.status not in (404, 405):
+            raise
+    if isinstance(unit.get("results"), list):  # a server without the metrics route
+        return unit["results"]
+    return kind_results(await client.catalogue(), str(unit.get("kind") or ""))
 
 
 async def _latest_time(client: LostworkClient, slug: str) -> pd.Timestamp | None:

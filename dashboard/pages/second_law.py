@@ -36,6 +36,8 @@ TABLE = "second-law-table"
 NOTE = "second-law-note"
 
 EXTRA = (HEADROOM_METRIC, HEADROOM_COST_METRIC, "eta_2")
+PERIOD_POINTS = 2
+"""Buckets asked for a period (the server's minimum); their means are combined."""
 CATEGORY_NAMES = {
     "product": "product",
     "destroyed": "destroyed",
@@ -134,7 +136,7 @@ async def draw(slug: str | None, preset: str | None, choice_data, *, client: Los
         start, end = timerange.window(preset, context.end())
         names = [r["name"] for r in context.results]
         asked = wanted_metrics(names) + [m for m in EXTRA if m in names]
-        found = await client.results(slug, start, end, asked, max_points=1)
+        found = await client.results(slug, start, end, asked, max_points=PERIOD_POINTS)
     except ApiError as exc:
         return None, blank, blank, [], [], cards.problem(exc, doing="load the exergy results")
     return render(context, found, prefs.read(choice_data), start, end)

@@ -121,6 +121,18 @@ class FakeClient(LostworkClient):
             return dict(PLANT)
         if path == "/kinds":
             return {"kinds": [{"name": "boiler", "results": BOILER_RESULTS}]}
+        if parts[0] == "units" and parts[-1] == "metrics":
+            found = next((u for u in UNITS if u["slug"] == parts[1]), None)
+            if found is None:
+                raise ApiError(404, "Not Found", f"no unit {parts[1]!r}")
+            return {
+                "unit": parts[1],
+                "kind": found["kind"],
+                "metrics": [
+                    {"metric": r["name"], "unit": r["unit"], "label": r["description"]}
+                    for r in found["results"]
+                ],
+            }
         if parts[0] == "units" and parts[-1] == "latest":
             return self._latest(parts[1])
         if parts[0] == "units" and parts[-1] == "results":
@@ -190,6 +202,7 @@ class FakeClient(LostworkClient):
                     "mean": values,
                     "min": [v * 0.99 if metric != "flags" else v for v in values],
                     "max": [v * 1.01 if metric != "flags" else v for v in values],
+                    "count": [max(int(bucket.total_seconds() // 60), 1)] * count,
                 }
             )
         return {

@@ -34,14 +34,47 @@ def test_detailed_terms_are_used_when_reported():
         "water_exergy_gain_w": 40.0,
         "exergy_destroyed_combustion_w": 30.0,
         "exergy_destroyed_heat_transfer_w": 20.0,
-        "exergy_lost_flue_gas_w": 8.0,
+        "exergy_lost_stack_thermal_w": 8.0,
         "lost_work_w": 50.0,
     }
     account = build_account(means)
-    assert account.destroyed == {"Destroyed: combustion": 30.0, "Destroyed: heat transfer": 20.0}
-    assert account.lost == {"Lost: flue gas": 8.0}
+    # names of engine.boiler_exergy_split
+    assert account.destroyed == {
+        "Destroyed in combustion": 30.0,
+        "Destroyed in heat transfer": 20.0,
+    }
+    assert account.lost == {"Lost with the stack gas, thermal": 8.0}
     # 100 - 40 - 50 - 8 = 2 W not accounted for: drawn as its own term
     assert account.terms()[-1] == ("mismatch", "Balance mismatch", pytest.approx(2.0))
+
+
+def test_a_part_the_dashboard_has_no_name_for_is_named_from_its_column():
+    account = build_account(
+        {
+            "fuel_exergy_w": 10.0,
+            "water_exergy_gain_w": 4.0,
+            "exergy_lost_blowdown_w": 1.0,
+            "exergy_destroyed_mixing_w": 5.0,
+        }
+    )
+    assert account.lost == {"Lost: blowdown": 1.0}
+    assert account.destroyed == {"Destroyed: mixing": 5.0}
+
+
+def test_turbine_account_uses_generator_power():
+    account = build_account(
+        {
+            "exergy_in_w": 5.0e6,
+            "generator_power_w": 3.4e6,
+            "exergy_destroyed_and_lost_w": 1.6e6,
+            "lost_work_w": 1.6e6,
+        }
+    )
+    assert (account.input_label, account.product_label) == (
+        "Exergy in with the steam",
+        "Generator power",
+    )
+    assert account.mismatch_w == pytest.approx(0.0)
 
 
 def test_block_account_uses_net_power_as_product():

@@ -179,7 +179,8 @@ def test_range_presets_and_zoom_windows_change_what_is_asked():
     _draw(client, preset="6h")
     params = [c[2]["params"] for c in client.calls if c[1].endswith("/results")][-1]
     assert (pd.Timestamp(params["end"]) - pd.Timestamp(params["start"])) == pd.Timedelta(hours=6)
-    assert pd.Timestamp(params["end"]) == fakes.LATEST_T
+    # the end is exclusive: just after the latest one-minute interval
+    assert pd.Timestamp(params["end"]) == fakes.LATEST_T + pd.Timedelta(minutes=1)
     window = {"start": "2026-11-30T10:00:00+00:00", "end": "2026-11-30T11:00:00+00:00"}
     _draw(client, preset="1y", window=window)
     params = [c[2]["params"] for c in client.calls if c[1].endswith("/results")][-1]
@@ -237,9 +238,9 @@ def test_second_law_account_closes_and_is_tabled():
     assert {c["id"]: c["name"] for c in columns}["value"] == "Exergy [MW]"
     assert waterfall.layout.yaxis.title.text == "Exergy flow [MW]"
     assert sum(sankey.data[0].link.value) == pytest.approx(20.0)
-    # one bucket over the period: the server averages it
+    # the server averages the period into two buckets (its minimum)
     params = [c[2]["params"] for c in client.calls if c[1].endswith("/results")][-1]
-    assert params["max_points"] == 1
+    assert params["max_points"] == 2
     assert "Recoverable headroom" in text_of(tiles)
 
 

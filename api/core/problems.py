@@ -165,6 +165,16 @@ async def _handle_validation(request: Request, exc: Exception) -> JSONResponse:
     assert isinstance(exc, RequestValidationError)
     errors = []
     for err in exc.errors():
+        if err.get("type") == "json_invalid":
+            position = err["loc"][-1] if err.get("loc") else "?"
+            reason = (err.get("ctx") or {}).get("error", "malformed")
+            errors.append(
+                {
+                    "field": "body",
+                    "message": f"the body is not valid JSON: {reason} at character {position}",
+                }
+            )
+            continue
         field, index = _field_path(err.get("loc", ()))
         item: dict[str, Any] = {"field": field, "message": f"{field}: {err.get('msg')}"}
         if index is not None:

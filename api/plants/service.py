@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from pydantic import ValidationError
-from sqlalchemy import delete, select
+from sqlalchemy import delete, func, select
 from sqlalchemy.orm import Session, selectinload
 
 from api import measure
@@ -130,22 +130,24 @@ def _resolve(
 
     std_atm = measure.STANDARD_ATMOSPHERE_PA
     atmosphere = quantity("plant.atmosphere", p.atmosphere, "Pa", std_atm)
-    if not 50_000 <= atmosphere <= 110_000:
+    if math.isfinite(atmosphere) and not 50_000 <= atmosphere <= 110_000:
         err("plant.atmosphere", f"plant.atmosphere: {atmosphere:.0f} Pa is not an atmosphere")
         atmosphere = std_atm
     t0 = quantity("plant.dead_state.temperature", p.dead_state.temperature, "K", atmosphere)
-    if not 223.15 <= t0 <= 343.15:
+    if math.isfinite(t0) and not 223.15 <= t0 <= 343.15:
         err(
             "plant.dead_state.temperature",
             f"plant.dead_state.temperature: {t0:.2f} K is outside -50..70 degC",
         )
     p0 = quantity("plant.dead_state.pressure", p.dead_state.pressure, "Pa", atmosphere)
-    if not 50_000 <= p0 <= 110_000:
+    if math.isfinite(p0) and not 50_000 <= p0 <= 110_000:
         err("plant.dead_state.pressure", f"plant.dead_state.pressure: {p0:.0f} Pa is not ambient")
     interval = default_interval_s
     if p.interval is not None:
         seconds = quantity("plant.interval", p.interval, "s", atmosphere)
-        if not (seconds >= 1 and seconds <= 86_400 and float(seconds).is_integer()):
+        if not math.isfinite(seconds):
+            pass
+        elif not (1 <= seconds <= 86_400 and float(seconds).is_integer()):
             err(
                 "plant.interval", f"plant.interval: {seconds} s must be whole seconds, 1 s to 1 day"
             )
@@ -447,6 +449,7 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
     # Units and their bindings
     units = {u.slug: u for u in plant.units}
     dirty: set[int] = set()
+    old_tags: dict[int, set[int]] = {}
     for slug, spec in r.doc.units.items():
         values = {
             "name": spec.name,
@@ -473,6 +476,7 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
             b.role: b
             for b in session.scalars(select(UnitBinding).where(UnitBinding.unit_id == unit.id))
         }
+        old_tags[unit.id] = {b.tag_id for b in existing.values()}
         bindings_changed = False
         for role, binding in existing.items():
             if role not in wanted:
@@ -516,15 +520,36 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
     for unit in live.values():
         if unit.id not in dirty:
             continue
-        tag_ids = [tags[t].id for t in r.doc.units[unit.slug].inputs.values()]
+        # Readings of the tags bound now and before, and the results already stored: the
+        # whole stretch whose results the change makes stale.
+        tag_ids = {tags[t].id for t in r.doc.units[unit.slug].inputs.values()}
+        tag_ids |= old_tags.get(unit.id, set())
         if plant.ambient_tag:
-            tag_ids.append(tags[plant.ambient_tag].id)
-        span = reading_range(session=session, tag_ids=tag_ids)
+            tag_ids.add(tags[plant.ambient_tag].id)
+        span = _union(
+            reading_range(session=session, tag_ids=tag_ids),
+            result_range(session=session, unit_id=unit.id),
+        )
         if span is not None:
             spans.append((unit.id, *align(span[0], span[1], interval_ms)))
             report.units_marked_dirty.append(unit.slug)
     mark_units_dirty(session=session, spans=spans, reason="config")
     report.units_marked_dirty.sort()
+
+
+def _union(a: tuple[int, int] | None, b: tuple[int, int] | None) -> tuple[int, int] | None:
+    if a is None or b is None:
+        return a or b
+    return min(a[0], b[0]), max(a[1], b[1])
+
+
+def result_range(*, session: Session, unit_id: int) -> tuple[int, int] | None:
+    lo, hi = session.execute(
+        select(func.min(ResultValue.t_ms), func.max(ResultValue.t_ms)).where(
+            ResultValue.unit_id == unit_id
+        )
+    ).one()
+    return None if lo is None else (int(lo), int(hi))
 
 
 # --------------------------------------------------------------------------- reading

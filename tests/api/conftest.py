@@ -28,7 +28,8 @@ from api.main import create_app
 
 PG_ENV = "LOSTWORK_TEST_PG_URL"
 UPLOAD_LIMIT = 64 * 1024
-"""Small upload limit for the tests, so that the 413 test sends little."""
+REQUEST_LIMIT = 256 * 1024
+"""Small limits for the tests, so that the 413 tests send little."""
 
 
 def _create_pg_database(base_url: str) -> tuple[str, Callable[[], None]]:
@@ -78,13 +79,11 @@ def engine(db_url: str) -> Iterator[Engine]:
 
 def _empty_all_tables(engine: Engine) -> None:
     tables = list(reversed(api.models.Base.metadata.sorted_tables))
+    # DELETE, not TRUNCATE: on a few rows it is ten times faster on PostgreSQL (TRUNCATE
+    # swaps every table's files). Ids are not reset; no test depends on them.
     with engine.begin() as conn:
-        if engine.dialect.name == "postgresql":
-            names = ", ".join(t.name for t in tables)
-            conn.execute(text(f"TRUNCATE {names} RESTART IDENTITY CASCADE"))
-        else:
-            for table in tables:
-                conn.execute(table.delete())
+        for table in tables:
+            conn.execute(table.delete())
 
 
 @pytest.fixture
@@ -105,17 +104,18 @@ def settings(db_url: str) -> Settings:
         database_url=db_url,
         embedded_worker=False,
         upload_max_bytes=UPLOAD_LIMIT,
+        request_max_bytes=REQUEST_LIMIT,
         interval_seconds=60,
     )
 
 
 @pytest.fixture
-def app(settings: Settings, session_factory: sessionmaker[Session]):  # type: ignore[no-untyped-def]
+def app(settings: Settings, session_factory: sessionmaker[Session]):
     return create_app(settings, session_factory=session_factory, mount_dashboard=False)
 
 
 @pytest.fixture
-def client(app) -> Iterator[TestClient]:  # type: ignore[no-untyped-def]
+def client(app) -> Iterator[TestClient]:
     with TestClient(app, raise_server_exceptions=False) as test_client:
         yield test_client
 

@@ -46,11 +46,11 @@ def post(client: TestClient, headers: dict, readings: list[dict], path: str = ""
 
 
 @pytest.fixture
-def ingest(make_key) -> dict:  # type: ignore[no-untyped-def]
+def ingest(make_key) -> dict:
     return make_key("ingest")
 
 
-def test_batch_is_stored_counted_and_queued(client, plant, ingest, session) -> None:  # type: ignore[no-untyped-def]
+def test_batch_is_stored_counted_and_queued(client, plant, ingest, session) -> None:
     batch = [
         {"tag": "FW-FLOW", "time": "2026-01-01T00:00:10Z", "value": 36.0},
         {"tag": "FW-FLOW", "time": T0 + 70_000, "value": 37.0},
@@ -71,7 +71,7 @@ def test_batch_is_stored_counted_and_queued(client, plant, ingest, session) -> N
     assert spans(session) == [(T0, T0 + 2 * MIN, "ingest")]
 
 
-def test_resending_the_same_batch_changes_nothing(client, plant, ingest, session) -> None:  # type: ignore[no-untyped-def]
+def test_resending_the_same_batch_changes_nothing(client, plant, ingest, session) -> None:
     batch = [{"tag": "FW-T", "time": T0 + i * MIN, "value": 100.0 + i} for i in range(5)]
     first = post(client, ingest, batch)
     second = post(client, ingest, batch)
@@ -86,7 +86,7 @@ def test_resending_the_same_batch_changes_nothing(client, plant, ingest, session
     assert spans(session)[-1] == (T0 + 2 * MIN, T0 + 3 * MIN, "ingest")
 
 
-def test_bad_items_are_rejected_one_by_one(client, plant, ingest, session) -> None:  # type: ignore[no-untyped-def]
+def test_bad_items_are_rejected_one_by_one(client, plant, ingest, session) -> None:
     batch = [
         {"tag": "FW-FLOW", "time": "2026-01-01T00:00:00Z", "value": 10.0},  # 0 good
         {"tag": "NO-SUCH", "time": "2026-01-01T00:00:00Z", "value": 1.0},  # 1 unknown tag
@@ -115,7 +115,7 @@ def test_bad_items_are_rejected_one_by_one(client, plant, ingest, session) -> No
     assert set(stored(session, "FW-T")) == {T0 + MIN}
 
 
-def test_non_finite_values_are_rejected(client, plant, ingest) -> None:  # type: ignore[no-untyped-def]
+def test_non_finite_values_are_rejected(client, plant, ingest) -> None:
     # JSON has no NaN, but Python's parser (and some clients) accept the bare tokens.
     body = (
         '{"plant": "test-works", "readings": ['
@@ -135,7 +135,7 @@ def test_non_finite_values_are_rejected(client, plant, ingest) -> None:  # type:
     assert report["stored"] == 1
 
 
-def test_all_rejected_is_a_422_problem(client, plant, ingest) -> None:  # type: ignore[no-untyped-def]
+def test_all_rejected_is_a_422_problem(client, plant, ingest) -> None:
     response = client.post(
         "/api/v1/readings",
         json={"plant": "test-works", "readings": [{"tag": "X", "time": T0, "value": 1}]},
@@ -151,7 +151,7 @@ def test_all_rejected_is_a_422_problem(client, plant, ingest) -> None:  # type: 
     assert (body["stored"], body["rejected"]) == (0, 1)
 
 
-def test_unknown_plant_is_404(client, plant, ingest) -> None:  # type: ignore[no-untyped-def]
+def test_unknown_plant_is_404(client, plant, ingest) -> None:
     response = client.post(
         "/api/v1/readings", json={"plant": "nowhere", "readings": []}, headers=ingest
     )
@@ -159,7 +159,7 @@ def test_unknown_plant_is_404(client, plant, ingest) -> None:  # type: ignore[no
     assert response.json()["detail"] == "no plant 'nowhere'"
 
 
-def test_gauge_and_us_customary_units_are_converted(client, plant, ingest, session) -> None:  # type: ignore[no-untyped-def]
+def test_gauge_and_us_customary_units_are_converted(client, plant, ingest, session) -> None:
     batch = [
         {"tag": "FW-P", "time": T0, "value": 10.0},  # barg
         {"tag": "MS-P", "time": T0, "value": 150.0},  # psig
@@ -180,7 +180,7 @@ def test_gauge_and_us_customary_units_are_converted(client, plant, ingest, sessi
     assert stored(session, "GAS")[T0] == pytest.approx(0.5, rel=1e-12)
 
 
-def test_repeated_key_in_one_batch_keeps_the_last(client, plant, ingest, session) -> None:  # type: ignore[no-untyped-def]
+def test_repeated_key_in_one_batch_keeps_the_last(client, plant, ingest, session) -> None:
     batch = [
         {"tag": "FW-T", "time": T0, "value": 50.0},
         {"tag": "FW-T", "time": "2026-01-01T01:00:00+01:00", "value": 60.0},  # same instant
@@ -190,7 +190,7 @@ def test_repeated_key_in_one_batch_keeps_the_last(client, plant, ingest, session
     assert stored(session, "FW-T") == {T0: pytest.approx(333.15, rel=1e-12)}
 
 
-def test_columnar_form(client, plant, ingest, session) -> None:  # type: ignore[no-untyped-def]
+def test_columnar_form(client, plant, ingest, session) -> None:
     body = {
         "plant": "test-works",
         "times": [T0, T0 + MIN, "2026-01-01T00:02:00Z", "not a time"],
@@ -217,7 +217,7 @@ def test_columnar_form(client, plant, ingest, session) -> None:  # type: ignore[
     assert sorted(stored(session, "FW-P")) == [T0, T0 + 2 * MIN]
 
 
-def test_columnar_bound_error_names_series_and_time_index(client, plant, ingest) -> None:  # type: ignore[no-untyped-def]
+def test_columnar_bound_error_names_series_and_time_index(client, plant, ingest) -> None:
     body = {
         "plant": "test-works",
         "times": [T0, T0 + MIN, T0 + 2 * MIN],
@@ -234,7 +234,7 @@ def test_columnar_bound_error_names_series_and_time_index(client, plant, ingest)
     assert (report["stored"], report["rejected"]) == (4, 1)
 
 
-def test_read_back_in_si(client, plant, ingest, make_key) -> None:  # type: ignore[no-untyped-def]
+def test_read_back_in_si(client, plant, ingest, make_key) -> None:
     post(client, ingest, [{"tag": "FW-T", "time": T0 + i * MIN, "value": 20.0} for i in range(3)])
     response = client.get(
         "/api/v1/readings",

@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 from engine.catalogue import UnitKind
-from engine.units import block, boiler, steam_turbine
+from engine.units import block, boiler, heat_engine, steam_turbine
 
 KINDS: tuple[UnitKind, ...] = (
     boiler.KIND,
     block.KIND,
     steam_turbine.KIND,
+    heat_engine.KIND,
 )

@@ -224,10 +224,16 @@ def boiler_exergy_split(
     products = fg.amounts_mol_per_kg
     air = fg.air_amounts_mol_per_kg
 
-    def stream(amounts, t):
-        h = _arr(gas.mixture_enthalpy(amounts, t))
-        s = _arr(gas.mixture_entropy(amounts, t, p0))
-        return h, s, h - t0 * s + _kappa_sum(_elements(amounts), kappa)
+    mixtures = {"air": gas.Mixture(air), "products": gas.Mixture(products)}
+    kappa_sums = {
+        "air": _kappa_sum(_elements(air), kappa),
+        "products": _kappa_sum(_elements(products), kappa),
+    }
+
+    def stream(name, t):
+        h = mixtures[name].enthalpy(t)
+        s = mixtures[name].entropy(t, p0)
+        return h, s, h - t0 * s + kappa_sums[name]
 
     # Fuel as fired (per kg): enthalpy from its HHV, exergy from its composition, the
     # entropy the two imply.
@@ -257,13 +263,13 @@ def boiler_exergy_split(
     ex_ubc = h_ubc - t0 * s_ubc + n_ubc * kappa["C"]
     h_b, s_b, ex_b = h_f - h_ubc, s_f - s_ubc, ex_f - ex_ubc
 
-    h_a1, s_a1, ex_a1 = stream(air, t_air)
-    h_a2, s_a2, ex_a2 = stream(air, t_hot)
+    h_a1, s_a1, ex_a1 = stream("air", t_air)
+    h_a2, s_a2, ex_a2 = stream("air", t_hot)
 
-    t_ad = _arr(gas.temperature_from_enthalpy(products, h_b + h_a2, 2000.0))
-    h_pad, s_pad, ex_pad = stream(products, t_ad)
-    h_pfg, s_pfg, ex_pfg = stream(products, t_fg)
-    _, _, ex_p0 = stream(products, t0)
+    t_ad = mixtures["products"].temperature(h_b + h_a2, 2000.0)
+    h_pad, s_pad, ex_pad = stream("products", t_ad)
+    h_pfg, s_pfg, ex_pfg = stream("products", t_fg)
+    _, _, ex_p0 = stream("products", t0)
 
     # Water/steam and the heat leaving, per kg of fuel.
     q_w = _arr(water_heat_absorbed_w) / m_f

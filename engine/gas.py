@@ -283,46 +283,71 @@ def _array(value) -> np.ndarray:
 
 # --- pure species --------------------------------------------------------------------
 
+T_SWITCH_K = 1000.0
+"""Temperature at which every two-range polynomial of the table changes range. [K]"""
+assert all(e.t_mid_k == T_SWITCH_K or e.low == e.high for e in NASA7_COEFFICIENTS.values()), (
+    "the combined-coefficient evaluation needs one common switch temperature"
+)
 
-def _coefficients(species: str, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Coefficient rows for each temperature, and the valid-temperature mask."""
+
+def _entry(species: str) -> _Nasa7:
     try:
-        entry = NASA7_COEFFICIENTS[species]
+        return NASA7_COEFFICIENTS[species]
     except KeyError:
         raise KeyError(f"unknown species {species!r}; known: {', '.join(SPECIES)}") from None
-    with np.errstate(invalid="ignore"):
-        valid = (t >= 200.0) & (t <= 6000.0)
-        high = t >= entry.t_mid_k
-    a = np.where(high[..., None], np.asarray(entry.high), np.asarray(entry.low))
-    return a, valid
 
 
-def _cp_over_r(a: np.ndarray, t: np.ndarray) -> np.ndarray:
-    return a[..., 0] + t * (a[..., 1] + t * (a[..., 2] + t * (a[..., 3] + t * a[..., 4])))
+def _combined(amounts: Mapping[str, np.ndarray]) -> tuple[list, list]:
+    """Amount-weighted sums of the coefficients, low and high range.
+
+    The polynomials are linear in their coefficients, so ``Σ n_i f(a_i, T) = f(Σ n_i a_i,
+    T)``: a mixture costs one polynomial evaluation, not one per species.
+    """
+    low = [0.0] * 7
+    high = [0.0] * 7
+    for species, n in amounts.items():
+        entry = _entry(species)
+        for k in range(7):
+            if entry.low[k]:
+                low[k] = low[k] + n * entry.low[k]
+            if entry.high[k]:
+                high[k] = high[k] + n * entry.high[k]
+    return low, high
 
 
-def _h_over_r(a: np.ndarray, t: np.ndarray) -> np.ndarray:
-    poly = a[..., 0] + t * (
-        a[..., 1] / 2 + t * (a[..., 2] / 3 + t * (a[..., 3] / 4 + t * a[..., 4] / 5))
-    )
-    return poly * t + a[..., 5]
+def _cp_over_r(a, t: np.ndarray) -> np.ndarray:
+    return a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * a[4])))
 
 
-def _s_over_r(a: np.ndarray, t: np.ndarray) -> np.ndarray:
+def _h_over_r(a, t: np.ndarray) -> np.ndarray:
+    poly = a[0] + t * (a[1] / 2 + t * (a[2] / 3 + t * (a[3] / 4 + t * a[4] / 5)))
+    return poly * t + a[5]
+
+
+def _s_over_r(a, t: np.ndarray) -> np.ndarray:
     with np.errstate(invalid="ignore", divide="ignore"):
         log_t = np.log(t)
-    return (
-        a[..., 0] * log_t
-        + t * (a[..., 1] + t * (a[..., 2] / 2 + t * (a[..., 3] / 3 + t * a[..., 4] / 4)))
-        + a[..., 6]
-    )
+    return a[0] * log_t + t * (a[1] + t * (a[2] / 2 + t * (a[3] / 3 + t * a[4] / 4))) + a[6]
+
+
+_KINDS = {"cp": _cp_over_r, "h": _h_over_r, "s": _s_over_r}
+
+
+def _evaluate(coefficients: tuple[list, list], t, kind: str) -> np.ndarray:
+    """``R Σ n_i f_i(T)`` for f = cp/R, h/R or s°/R from combined coefficients; NaN
+    outside 200-6,000 K."""
+    t = _array(t)
+    low, high = coefficients
+    function = _KINDS[kind]
+    with np.errstate(invalid="ignore"):
+        valid = (t >= 200.0) & (t <= 6000.0)
+        upper = t >= T_SWITCH_K
+    value = np.where(upper, function(high, t), function(low, t))
+    return np.where(valid, value * R_J_PER_MOL_K, np.nan)
 
 
 def _species_property(species: str, t_k, kind: str) -> np.ndarray:
-    t = _array(t_k)
-    a, valid = _coefficients(species, t)
-    value = {"cp": _cp_over_r, "h": _h_over_r, "s": _s_over_r}[kind](a, t) * R_J_PER_MOL_K
-    return np.where(valid, value, np.nan)
+    return _evaluate(_combined({species: 1.0}), t_k, kind)
 
 
 def cp_j_per_mol_k(species: str, t_k):
@@ -404,6 +429,78 @@ def _amounts(amounts: Mapping[str, object]) -> dict[str, np.ndarray]:
     return {name: _array(n) for name, n in amounts.items()}
 
 
+class Mixture:
+    """An ideal-gas mixture of given amounts, evaluated at many temperatures.
+
+    The amount-weighted coefficients and the mixing term are computed once, so a stream
+    evaluated at several states (flame, exit, dead state) costs one polynomial per
+    state. The functions below are thin wrappers around it.
+
+    Parameters
+    ----------
+    amounts : Mapping[str, numeric]
+        Amount of each species, scalars or arrays (one per row): mole fractions, or
+        moles per kg of fuel. [mol]
+
+    Notes
+    -----
+    Results are ndarrays in the basis of ``amounts`` (J, J/K per that amount).
+    """
+
+    def __init__(self, amounts: Mapping[str, object]) -> None:
+        self.amounts = _amounts(amounts)
+        self.total = sum(self.amounts.values())
+        self._coefficients = _combined(self.amounts)
+        # Σ n_i ln x_i, the mixing part of the entropy (zero amounts contribute nothing).
+        log_sum = 0.0
+        for n in self.amounts.values():
+            with np.errstate(invalid="ignore", divide="ignore"):
+                log_sum = log_sum + np.where(n == 0, 0.0, n * np.log(n / self.total))
+        self._n_ln_x = log_sum
+
+    def cp(self, t_k) -> np.ndarray:
+        """``Σ n_i cp_i(T)``. [J/K]"""
+        return _evaluate(self._coefficients, t_k, "cp")
+
+    def enthalpy(self, t_k) -> np.ndarray:
+        """``Σ n_i h_i(T)``, formation basis. [J]"""
+        return _evaluate(self._coefficients, t_k, "h")
+
+    def entropy(self, t_k, p_pa) -> np.ndarray:
+        """``Σ n_i [s°_i(T) - R ln(x_i p / 1 bar)]``. [J/K]"""
+        with np.errstate(invalid="ignore", divide="ignore"):
+            pressure = self.total * np.log(_array(p_pa) / P_REF_PA)
+        standard = _evaluate(self._coefficients, t_k, "s")
+        return standard - R_J_PER_MOL_K * (self._n_ln_x + pressure)
+
+    def temperature(self, h_target, t_guess_k=1500.0) -> np.ndarray:
+        """Temperature of a given enthalpy (see :func:`temperature_from_enthalpy`). [K]"""
+        low, high = self._coefficients
+        target = _array(h_target) / R_J_PER_MOL_K
+        shape = np.broadcast_shapes(target.shape, np.shape(self.total))
+        t = np.broadcast_to(_array(t_guess_k), shape).astype(float)
+        target = np.broadcast_to(target, shape)
+
+        def h_and_cp(t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            upper = t >= T_SWITCH_K
+            h = np.where(upper, _h_over_r(high, t), _h_over_r(low, t))
+            cp = np.where(upper, _cp_over_r(high, t), _cp_over_r(low, t))
+            return h, cp
+
+        for _ in range(60):
+            h, cp = h_and_cp(t)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                t_new = np.clip(t + (target - h) / cp, 200.0, 6000.0)
+                done = ~(np.abs(t_new - t) > 1e-9)
+            t = t_new
+            if np.all(done | ~np.isfinite(t)):
+                break
+        h, cp = h_and_cp(t)
+        with np.errstate(invalid="ignore"):
+            converged = np.abs(target - h) <= 1e-6 * np.maximum(np.abs(cp), 1.0)
+        return np.where(converged, t, np.nan)
+
+
 def total_amount(amounts: Mapping[str, object]):
     """Sum of the amounts of a mixture (mol, or mol per kg fuel, ...). [same as amounts]"""
     values = _amounts(amounts)
@@ -435,9 +532,7 @@ def mixture_cp(amounts: Mapping[str, object], t_k):
     numeric
         ``Σ n_i cp_i``. [J/K per the basis of ``amounts``]
     """
-    values = _amounts(amounts)
-    total = sum(n * _species_property(s, t_k, "cp") for s, n in values.items())
-    return restore_type(total, amounts, t_k)
+    return restore_type(Mixture(amounts).cp(t_k), amounts, t_k)
 
 
 def mixture_enthalpy(amounts: Mapping[str, object], t_k):
@@ -460,9 +555,7 @@ def mixture_enthalpy(amounts: Mapping[str, object], t_k):
     Ideal-gas mixing has no heat of mixing (Gibbs-Dalton), so the mixture enthalpy is
     the amount-weighted sum of the pure-species enthalpies.
     """
-    values = _amounts(amounts)
-    total = sum(n * _species_property(s, t_k, "h") for s, n in values.items())
-    return restore_type(total, amounts, t_k)
+    return restore_type(Mixture(amounts).enthalpy(t_k), amounts, t_k)
 
 
 def sensible_enthalpy(amounts: Mapping[str, object], t_k, t_ref_k=T_REF_K):
@@ -482,11 +575,8 @@ def sensible_enthalpy(amounts: Mapping[str, object], t_k, t_ref_k=T_REF_K):
     numeric
         Sensible enthalpy. [J per the basis of ``amounts``]
     """
-    values = _amounts(amounts)
-    total = sum(
-        n * (_species_property(s, t_k, "h") - _species_property(s, t_ref_k, "h"))
-        for s, n in values.items()
-    )
+    mixture = Mixture(amounts)
+    total = mixture.enthalpy(t_k) - mixture.enthalpy(t_ref_k)
     return restore_type(total, amounts, t_k, t_ref_k)
 
 
@@ -512,16 +602,7 @@ def mixture_entropy(amounts: Mapping[str, object], t_k, p_pa):
     -----
     Gibbs-Dalton ideal mixture: the mixing entropy ``-R Σ n_i ln x_i`` is included.
     """
-    values = _amounts(amounts)
-    n_total = sum(values.values())
-    p = _array(p_pa)
-    total = 0.0
-    for species, n in values.items():
-        with np.errstate(invalid="ignore", divide="ignore"):
-            x = n / n_total
-            s_i = _species_property(species, t_k, "s") - R_J_PER_MOL_K * np.log(x * p / P_REF_PA)
-            total = total + np.where(n == 0, 0.0, n * s_i)
-    return restore_type(total, amounts, t_k, p_pa)
+    return restore_type(Mixture(amounts).entropy(t_k, p_pa), amounts, t_k, p_pa)
 
 
 def enthalpy_j_per_kg(mole_fractions: Mapping[str, object], t_k):
@@ -536,8 +617,7 @@ def enthalpy_j_per_kg(mole_fractions: Mapping[str, object], t_k):
     """
     values = _amounts(mole_fractions)
     mass = sum(n * molar_mass_kg_per_mol(s) for s, n in values.items())
-    h = sum(n * _species_property(s, t_k, "h") for s, n in values.items())
-    return restore_type(h / mass, mole_fractions, t_k)
+    return restore_type(Mixture(values).enthalpy(t_k) / mass, mole_fractions, t_k)
 
 
 def sensible_enthalpy_j_per_kg(mole_fractions: Mapping[str, object], t_k, t_ref_k=T_REF_K):
@@ -600,23 +680,5 @@ def temperature_from_enthalpy(amounts: Mapping[str, object], h_target, t_guess_k
     unique; Newton steps are clipped to the polynomial range and the iteration is a
     fixed number of vectorised steps (no loop over rows).
     """
-    values = _amounts(amounts)
-    target = _array(h_target)
-    shape = np.broadcast_shapes(target.shape, *(v.shape for v in values.values()))
-    t = np.broadcast_to(_array(t_guess_k), shape).astype(float)
-    target = np.broadcast_to(target, shape)
-    for _ in range(60):
-        h = sum(n * _species_property(s, t, "h") for s, n in values.items())
-        cp = sum(n * _species_property(s, t, "cp") for s, n in values.items())
-        with np.errstate(invalid="ignore", divide="ignore"):
-            step = (target - h) / cp
-        t_new = np.clip(t + step, 200.0, 6000.0)
-        done = ~(np.abs(t_new - t) > 1e-9)
-        t = t_new
-        if np.all(done | ~np.isfinite(t)):
-            break
-    h = sum(n * _species_property(s, t, "h") for s, n in values.items())
-    cp = sum(n * _species_property(s, t, "cp") for s, n in values.items())
-    with np.errstate(invalid="ignore"):
-        converged = np.abs(target - h) <= 1e-6 * np.maximum(np.abs(cp), 1.0)
-    return restore_type(np.where(converged, t, np.nan), amounts, h_target)
+    t = Mixture(amounts).temperature(h_target, t_guess_k)
+    return restore_type(t, amounts, h_target)

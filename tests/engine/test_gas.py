@@ -196,3 +196,25 @@ def test_nan_and_out_of_range_rows_are_nan_only_there():
 def test_unknown_species_error_text():
     with pytest.raises(KeyError, match="unknown species 'XY'"):
         gas.enthalpy_j_per_mol("XY", 300.0)
+
+
+def test_mixture_object_equals_species_sums_row_by_row():
+    # Combined coefficients and the mixing term against per-species evaluation at each
+    # species' partial pressure, for rows with different compositions and temperatures.
+    amounts = {"CO2": np.array([8.0, 0.0, 1.0]), "H2O": np.array([12.0, 3.0, 0.5])}
+    amounts["N2"] = np.array([70.0, 40.0, 2.0])
+    t = np.array([450.0, 1200.0, 2100.0])
+    p = 95_000.0
+    mixture = gas.Mixture(amounts)
+    total = sum(amounts.values())
+    for row in range(3):
+        h = sum(n[row] * gas.enthalpy_j_per_mol(s, t[row]) for s, n in amounts.items())
+        s_sum = sum(
+            n[row] * gas.entropy_j_per_mol_k(s, t[row], n[row] / total[row] * p)
+            for s, n in amounts.items()
+            if n[row] > 0
+        )
+        cp = sum(n[row] * gas.cp_j_per_mol_k(s, t[row]) for s, n in amounts.items())
+        assert mixture.enthalpy(t)[row] == pytest.approx(h, rel=1e-12)
+        assert mixture.entropy(t, p)[row] == pytest.approx(s_sum, rel=1e-12)
+        assert mixture.cp(t)[row] == pytest.approx(cp, rel=1e-12)

@@ -408,14 +408,20 @@ def _from_p_and(
     with np.errstate(invalid="ignore"):
         sat_rows = np.flatnonzero(valid & (p < P_CRITICAL_PA))
     ps, ys = p[sat_rows], y[sat_rows]
-    zeros, ones = np.zeros(ps.size), np.ones(ps.size)
-    y_f = _props(name, "P", ps, "Q", zeros)
-    y_g = _props(name, "P", ps, "Q", ones)
-    t_sat = _props("T", "P", ps, "Q", zeros)
+    # Saturated vapour first: rows beyond it need neither the liquid end nor, when T is
+    # not asked for, the saturation temperature (each is a full CoolProp evaluation).
+    y_g = _props(name, "P", ps, "Q", np.ones(ps.size))
     with np.errstate(invalid="ignore"):
-        two = (ys >= y_f) & (ys <= y_g) & np.isfinite(t_sat)
-        liquid = (ys < y_f) & np.isfinite(t_sat)
-        vapour = (ys > y_g) & np.isfinite(t_sat)
+        vapour = ys > y_g
+        below = np.flatnonzero(ys <= y_g)
+    y_f = _scatter(ps.size, below, _props(name, "P", ps[below], "Q", np.zeros(below.size)))
+    with np.errstate(invalid="ignore"):
+        two = ys >= y_f
+        liquid = ys < y_f
+    need_t = np.flatnonzero(vapour | liquid | (two & ("t" in props)))
+    t_sat = _scatter(ps.size, need_t, _props("T", "P", ps[need_t], "Q", np.zeros(need_t.size)))
+    vapour &= np.isfinite(t_sat)
+    liquid &= np.isfinite(t_sat)
 
     rows = sat_rows[two]
     p2 = ps[two]
@@ -423,7 +429,7 @@ def _from_p_and(
     t[rows] = t_sat[two]
     quality[rows] = x
     phase[rows] = int(Phase.TWO_PHASE)
-    ok[rows] = True
+    ok[rows] = np.isfinite(x)
     z2, o2 = np.zeros(p2.size), np.ones(p2.size)
     if other in props:
         o_f = _props(other_name, "P", p2, "Q", z2)
@@ -469,7 +475,9 @@ def _from_p_and(
         single[hot] = int(Phase.SUPERCRITICAL)
         phase[rows] = single[solved]
 
-    ok &= valid & np.isfinite(t)
+    ok &= valid
+    if "t" in props:
+        ok &= np.isfinite(t)
     if other in props:
         ok &= np.isfinite(other_values)
     if "v" in props:

@@ -52,14 +52,15 @@ modelled.
 
 References
 ----------
-.. [1] T. J. Kotas, "The Exergy Method of Thermal Plant Analysis", Krieger 1995, Sec. 4
-   (exergy analysis of combustion and of a boiler: combustion, heat transfer, stack
-   and refuse losses).
+.. [1] T. J. Kotas, "The Exergy Method of Thermal Plant Analysis", Krieger 1995, Ch. 4
+   (exergy analysis of simple processes: combustion, heat transfer; chapter number
+   from memory).
 .. [2] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley
    1996, Sec. 3.4 (exergy destruction = T0 Sgen), 3.5 (chemical exergy).
 .. [3] J. Szargut, D. R. Morris, F. R. Steward, "Exergy Analysis of Thermal, Chemical and
    Metallurgical Processes", Hemisphere, 1988, Ch. 2 and Appendix Table I.
-.. [4] ASME PTC 4-2013, "Fired Steam Generators", Sec. 4 (the steam-generator envelope).
+.. [4] ASME PTC 4-2013, "Fired Steam Generators", the steam-generator envelope of its
+   typical-boundary figures (Sec. 1-3; section from memory).
 """
 
 from __future__ import annotations

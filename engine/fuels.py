@@ -400,7 +400,8 @@ class GasComposition:
             Reference conditions of the volume.
         compressibility : float, default 1.0
             Compressibility factor Z at those conditions; 1 is the ideal gas (natural gas
-            is about 0.998 at reference conditions, ISO 6976 Sec. 9). [-]
+            is about 0.998 at reference conditions; ISO 6976 gives the method, value
+            from memory). [-]
         """
         return (
             reference.p_pa

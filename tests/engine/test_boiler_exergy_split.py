@@ -145,8 +145,9 @@ def test_combustion_destruction_against_cantera_entropies():
     sgen = entropy(products, t_ad) - entropy({"CH4": n_fuel}, T0) - entropy(air_amounts, T0)
     # 0.5 %: Szargut's CH4 exergy vs GRI Gibbs energies (0.03 %), flame temperature (1 K).
     assert ours["exergy_destroyed_combustion_w"] == pytest.approx(T0 * sgen, rel=5e-3)
-    # Plausibility (Kotas 1995 Sec. 4; common practice): adiabatic combustion of a
-    # hydrocarbon with cold air destroys roughly 25-35 % of the fuel exergy.
+    # Plausibility, common practice (textbook boiler analyses such as Kotas 1995, Ch. 4):
+    # adiabatic combustion of a hydrocarbon with cold air destroys about 25-35 % of the
+    # fuel exergy.
     assert 0.25 < ours["exergy_destroyed_combustion_w"] / ours["exergy_fuel_w"] < 0.35
 
 
@@ -219,8 +220,8 @@ def test_coal_worked_example_step_by_step():
     parts = [out[c] for c in bx.DESTROYED_COLUMNS + bx.LOST_COLUMNS]
     assert sum(parts) == pytest.approx(_total(out.to_frame().T)[0], rel=1e-9)
     assert out["exergy_destroyed_w"] == pytest.approx(T0 * out["sgen_w_per_k"], rel=1e-9)
-    # Plausibility, common practice for a coal boiler (Kotas 1995 Sec. 4 gives figures of
-    # this order): eta_2 near 0.45-0.55, combustion destroying about 25-35 % and heat
+    # Plausibility, common practice for a coal boiler (textbook figures of this order):
+    # eta_2 near 0.45-0.55, combustion destroying about 25-35 % and heat
     # transfer 15-30 % of the fuel exergy, the stack losing a few per cent.
     fuel = out["exergy_fuel_w"]
     assert 0.45 < ex_w / fuel < 0.55

@@ -767,3 +767,22 @@ def test_saturation_guard_rails():
 
 def test_formulation_is_named():
     assert steam.FORMULATION == "IAPWS-IF97"
+
+
+@pytest.mark.parametrize("props", [("h",), ("s",), ("quality",), ("v",), ("t",), ("phase",)])
+def test_inverse_with_a_subset_of_properties(props):
+    """Asking for fewer properties changes nothing in what is computed or flagged.
+
+    Wet (10 kPa), superheated (1 MPa), compressed liquid (20 MPa) and an impossible
+    row (h below liquid at 273.15 K), by (p, h) from states of R7-97 Tables 5 and 15.
+    """
+    p = np.array([10e3, 1e6, 20e6, 1e6])
+    h = np.array([2.3e6, 0.333568375e4 * KJ, 0.975542239e3 * KJ, -50e3])
+    full = steam.from_ph(p, h)
+    part = steam.from_ph(p, h, props=props)
+    assert full.in_range.tolist() == [True, True, True, False]
+    np.testing.assert_array_equal(part.in_range, full.in_range)
+    for prop in props:
+        np.testing.assert_array_equal(getattr(part, prop), getattr(full, prop))
+    by_s = steam.from_ps(p[:3], full.s[:3], props=props)
+    assert by_s.in_range.tolist() == [True, True, True]

@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 from engine.catalogue import UnitKind
-from engine.units import block, boiler, heat_engine, steam_turbine
+from engine.units import block, boiler, heat_engine, heat_pump, steam_turbine
 
 KINDS: tuple[UnitKind, ...] = (
     boiler.KIND,
     block.KIND,
     steam_turbine.KIND,
     heat_engine.KIND,
+    heat_pump.KIND,
 )

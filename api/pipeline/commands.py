@@ -41,13 +41,23 @@ def worker(
     ] = None,
 ) -> None:
     """Run a compute worker (several may run at once on PostgreSQL). Stops on Ctrl-C or
-    SIGTERM after its current chunk, releasing its span."""
+    SIGTERM after its current chunk, releasing its span (a second Ctrl-C stops at once)."""
     _setup_logging()
     factory = _session_factory()
     owner = owner or default_owner()
     stop = threading.Event()
-    if threading.current_thread() is threading.main_thread():
-        signal.signal(signal.SIGTERM, lambda *_: stop.set())
+    in_main = threading.current_thread() is threading.main_thread()
+    previous: dict[int, object] = {}
+    if in_main:
+
+        def graceful(signum: int, _frame: object) -> None:
+            if stop.is_set() and signum == signal.SIGINT:
+                raise KeyboardInterrupt  # a second Ctrl-C: leave at once (the lease expires)
+            typer.echo(f"worker {owner}: stopping after the current chunk", err=True)
+            stop.set()
+
+        for signum in (signal.SIGTERM, signal.SIGINT):
+            previous[signum] = signal.signal(signum, graceful)
     typer.echo(f"worker {owner}: started")
     done = 0
     try:
@@ -58,6 +68,9 @@ def worker(
             stop.wait(poll)
     except KeyboardInterrupt:
         stop.set()
+    finally:
+        for signum, handler in previous.items():
+            signal.signal(signum, handler)  # type: ignore[arg-type]
     typer.echo(f"worker {owner}: stopped after {done} span(s)")
 
 

@@ -29,7 +29,7 @@ from engine.checks import Flag
 from engine.deadstate import dead_state
 from engine.fuels import FuelProperties
 from engine.units.boiler import KIND as BOILER
-from tests.api.factories import ATMOSPHERE_PA, T0
+from tests.api.factories import ATMOSPHERE_PA, T0, plant_document
 
 S = 1000
 MIN = 60 * S
@@ -333,3 +333,41 @@ def test_a_failing_model_backs_off_then_marks_the_span_failed(
         assert run_once(session_factory, "w1", options=options) == 0
         clock[0] += dt.timedelta(seconds=queue.RETRY_BASE_SECONDS * 2**attempt + 1)
     assert span.state == "failed"
+
+
+def test_ambient_tag_gives_t0_per_interval(client, admin, ingest, session_factory) -> None:
+    doc = plant_document()
+    doc["plant"]["dead_state"] = {"ambient_tag": "AMB", "pressure": "101.325 kPa"}
+    doc["tags"]["AMB"] = {"unit": "degC", "low": -40, "high": 50}
+    response = client.post("/api/v1/plants", json=doc, headers=admin)
+    assert response.status_code == 200, response.text
+    values = readings(2, step_s=60)
+    push(client, ingest, values, step_s=60)
+    # Ambient only for the first minute: 10 degC. The second minute falls back to the
+    # plant's T0 (25 degC, the default of the plant file) with AMBIENT_DEFAULT.
+    push(client, ingest, {"AMB": np.array([10.0])}, step_s=60)
+    run_once(session_factory, "w1")
+    got = stored_results(session_factory)
+
+    per_minute = {role: convert(values[tag]) for tag, (role, convert) in TO_SI.items()}
+    inputs = pd.DataFrame(per_minute, index=pd.Index(T0 + MIN * np.arange(2), name="t_ms"))
+    dead = dead_state(np.array([283.15, 298.15]), np.full(2, 101_325.0))
+    want = BOILER.model(
+        inputs,
+        BOILER.resolve_parameters({"mass_balance_tolerance": 0.03}),
+        ModelContext(dead=dead, fuel=GAS),
+    )
+    np.testing.assert_allclose(
+        got["eta_2"].to_numpy(float), want["eta_2"].to_numpy(float), rtol=1e-9
+    )
+    np.testing.assert_allclose(
+        got["lost_work_w"].to_numpy(float), want["lost_work_w"].to_numpy(float), rtol=1e-9
+    )
+    assert got["flags"].tolist() == [
+        float(want["flags"].iloc[0]),
+        float(want["flags"].iloc[1] | DataFlag.AMBIENT_DEFAULT),
+    ]
+    # T0 matters: the same minute at 25 degC gives a different second-law result.
+    assert got["eta_2"].iloc[0] != pytest.approx(
+        expected_from_engine(values, 2, step_s=60)["eta_2"].iloc[0], rel=1e-6
+    )

@@ -13,23 +13,29 @@ or non-finite, gives NaN in every property and ``in_range = False`` for that row
 other rows of the batch are unaffected. No function here raises for a bad row.
 
 Consistency of the inverse routes. IF97's backward equations T(p,h) and T(p,s) agree
-with the basic equations only to within 25 mK (region 1) and 10 mK (region 2) [1]_.
-:func:`from_ph` and :func:`from_ps` therefore solve h(p, T) = h or s(p, T) = s by
-safeguarded Newton steps on the (p, T) route (iterating on the basic equations, for
-which the backward equations are a shortcut), so that ``from_ph(p, from_pt(p, T).h).t``
-returns ``T`` to about 1e-9 K. Entropy balances of a reversible process then close to round-off.
-The same solver covers the states CoolProp's IF97 backend has no (p, h) or (p, s)
-route for: region 3 above the critical pressure and region 5.
+with the basic equations only to a few tens of mK (R7-97 Sec. 5.2 and 6.3; 22 mK
+measured in subregion 2c) [1]_. :func:`from_ph` and :func:`from_ps` therefore solve
+h(p, T) = h or s(p, T) = s by safeguarded Newton steps on the (p, T) route (iterating
+on the basic equations, for which the backward equations are a shortcut), so that
+``from_ph(p, from_pt(p, T).h).t`` returns ``T`` to about 1e-9 K, and entropy balances
+of a reversible process close to round-off. The same solver covers the states
+CoolProp's IF97 backend has no (p, h) or (p, s) route for: region 3 above the critical
+pressure and region 5. Inside the dome (region 4) the lever rule between the
+saturated states applies, exactly as in :func:`from_px`.
 
 Range. IF97 is valid for 273.15 K <= T <= 1073.15 K at p <= 100 MPa and
 1073.15 K < T <= 2273.15 K at p <= 50 MPa ([1]_, Sec. 4). CoolProp's IF97 backend also
 refuses pressures below the saturation pressure at 273.15 K (611.213 Pa), although
 region 2 of the release extends to 0 Pa; lostwork follows the backend.
 
-In region 3 the (p, T) route evaluates the basic equation f(rho, T) at the density of
+Region 3. The (p, T) route evaluates the basic equation f(rho, T) at the density of
 the backward equations v(p, T) of IAPWS SR5-05 [3]_, so region-3 properties from
-(p, T) agree with the basic equation only to the backward equations' tolerance (about
-1e-6 relative in h and s, observed against the ``iapws`` package).
+(p, T) agree with the exact solution of the basic equation only to that equation's
+consistency (up to about 1e-5 relative in v, 2e-6 in h and s; near the critical point,
+21-22.5 MPa, up to 3e-4 in v), measured against the ``iapws`` package. Between about
+21 MPa and the critical pressure, states within about 10 mK of saturation may come
+back from (p, h) or (p, s) on the other side of the line or inside the dome, because
+the saturated states and the region-3 backward volumes disagree by that much there.
 
 References
 ----------
@@ -510,9 +516,9 @@ def from_ph(p_pa, h_j_per_kg, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamS
     enthalpies gives a two-phase state (lever rule, IAPWS R7-97 Sec. 8). Otherwise the
     temperature solves h(p, T) = h (safeguarded Newton steps on the basic equations;
     above the critical pressure the backward equation T(p,h) gives the first guess),
-    so the state is the one :func:`from_pt` gives at that temperature. It agrees with
-    the backward equation to within its stated consistency (25 mK in region 1, 10 mK
-    in region 2).
+    so the state is the one :func:`from_pt` gives at that temperature. It differs from
+    the backward equation's answer by no more than that equation's consistency with
+    the basic equations (at most 25 mK; tests against R7-97 Tables 7 and 24).
 
     References
     ----------

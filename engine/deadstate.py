@@ -61,9 +61,13 @@ def dead_state(t0_k=T0_DEFAULT_K, p0_pa=P0_DEFAULT_PA) -> DeadState:
         Scalars when both inputs are scalars, otherwise arrays broadcast together.
         Rows with an impossible dead state give NaN water properties (and so NaN exergy).
     """
-    state = steam.from_pt(p0_pa, t0_k, props=("h", "s"))
+    state = steam.from_pt(p0_pa, t0_k, props=("h", "s", "phase"))
     scalar = np.ndim(t0_k) == 0 and np.ndim(p0_pa) == 0
-    h0, s0 = state.h, state.s
+    # Water at the dead state must be liquid (the environment's water); a T0 above the
+    # boiling point at p0 is not a usable environment, so it yields NaN, not steam values.
+    liquid = state.phase == steam.Phase.LIQUID
+    h0 = np.where(liquid, state.h, np.nan)
+    s0 = np.where(liquid, state.s, np.nan)
     t0 = np.broadcast_to(np.asarray(t0_k, dtype=float), h0.shape).copy()
     p0 = np.broadcast_to(np.asarray(p0_pa, dtype=float), h0.shape).copy()
     if scalar:

@@ -12,8 +12,16 @@ References
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
 from engine.deadstate import DeadState
+
+
+def _numeric(value):
+    """Series and arrays as they are (a Series keeps its index); lists and scalars as arrays."""
+    if isinstance(value, pd.Series | np.ndarray):
+        return value
+    return np.asarray(value, dtype=float)
 
 
 def flow_exergy(h_j_per_kg, s_j_per_kg_k, dead: DeadState):
@@ -38,8 +46,8 @@ def flow_exergy(h_j_per_kg, s_j_per_kg_k, dead: DeadState):
     Eq. 3.13 in [1]_ without kinetic and potential terms, which are negligible for
     plant steam and water lines.
     """
-    return (np.asarray(h_j_per_kg) - dead.h0_water_j_per_kg) - dead.t0_k * (
-        np.asarray(s_j_per_kg_k) - dead.s0_water_j_per_kg_k
+    return (_numeric(h_j_per_kg) - dead.h0_water_j_per_kg) - dead.t0_k * (
+        _numeric(s_j_per_kg_k) - dead.s0_water_j_per_kg_k
     )
 
 
@@ -91,4 +99,4 @@ def carnot_efficiency(t_hot_k, t_cold_k):
     t_cold_k : numeric
         Cold-reservoir temperature. [K]
     """
-    return 1.0 - np.asarray(t_cold_k) / np.asarray(t_hot_k)
+    return 1.0 - _numeric(t_cold_k) / _numeric(t_hot_k)

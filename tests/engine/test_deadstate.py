@@ -77,3 +77,14 @@ def test_impossible_dead_state_rows_are_nan():
     assert dead.s0_water_j_per_kg_k[0] == pytest.approx(s0, rel=1e-9)
     assert np.isnan(dead.h0_water_j_per_kg[1:]).all()
     assert np.isnan(dead.s0_water_j_per_kg_k[1:]).all()
+
+
+def test_dead_state_above_boiling_point_is_nan_not_steam():
+    # 380 K is above the normal boiling point (373.12 K at 101.325 kPa, IAPWS-IF97 Eq. 31):
+    # no liquid environment water exists there, so exergy has no reference.
+    dead = dead_state(380.0)
+    assert np.isnan(dead.h0_water_j_per_kg)
+    assert np.isnan(dead.s0_water_j_per_kg_k)
+    per_row = dead_state(np.array([298.15, 380.0]))
+    assert np.isfinite(per_row.h0_water_j_per_kg[0])
+    assert np.isnan(per_row.h0_water_j_per_kg[1])

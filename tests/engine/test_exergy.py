@@ -134,3 +134,15 @@ def test_carnot_efficiency():
     np.testing.assert_allclose(carnot_efficiency(t_hot, T0), heat_exergy(1.0, t_hot, T0))
     assert carnot_efficiency(T0, T0) == 0.0
     assert np.isnan(carnot_efficiency(np.nan, T0))
+
+
+def test_flow_exergy_keeps_series_index():
+    # pvlib convention: a Series in gives a Series out with the same index.
+    dead = dead_state()
+    index = pd.date_range("2026-01-01", periods=2, freq="min", tz="UTC")
+    h = pd.Series([dead.h0_water_j_per_kg, 3.0e6], index=index)
+    s = pd.Series([dead.s0_water_j_per_kg_k, 7000.0], index=index)
+    ex = flow_exergy(h, s, dead)
+    assert isinstance(ex, pd.Series)
+    assert ex.index.equals(index)
+    assert ex.iloc[0] == pytest.approx(0.0, abs=1e-9)

@@ -64,7 +64,30 @@ def _numbers(values: Sequence[Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray]
     return out, null, bad
 
 
-def _check_values(batch: _Batch, tags: list[Tag], where: Any, value_field: str = "value") -> None:
+@dataclass(frozen=True)
+class _TagRow:
+    id: int
+    name: str
+    unit: str
+    si_unit: str | None
+    low: float | None
+    high: float | None
+
+
+def _plant_tags(session: Session, plant_id: int) -> list[_TagRow]:
+    # Plain rows, not ORM objects: a plant may have thousands of tags and this runs per
+    # request.
+    rows = session.execute(
+        select(Tag.id, Tag.name, Tag.unit, Tag.si_unit, Tag.low, Tag.high).where(
+            Tag.plant_id == plant_id
+        )
+    )
+    return [_TagRow(*row) for row in rows.all()]
+
+
+def _check_values(
+    batch: _Batch, tags: list[_TagRow], where: Any, value_field: str = "value"
+) -> None:
     """Reject non-finite and implausible values (bounds are in the tag's own unit)."""
     finite = np.isfinite(batch.raw)
     for i in np.flatnonzero(batch.ok & ~finite):
@@ -72,46 +95,54 @@ def _check_values(batch: _Batch, tags: list[Tag], where: Any, value_field: str =
             where(i, value_field, f"value {float(batch.raw[i])!r} is not a finite number")
         )
     batch.ok &= finite
+    if not tags or not batch.ok.any():
+        return
+    lows = np.array([-np.inf if t.low is None else t.low for t in tags])
+    highs = np.array([np.inf if t.high is None else t.high for t in tags])
+    pos = np.where(batch.tag_pos >= 0, batch.tag_pos, 0)
+    below = batch.ok & (batch.raw < lows[pos])
+    above = batch.ok & (batch.raw > highs[pos])
+    for i in np.flatnonzero(below | above):
+        tag = tags[pos[i]]
+        side = (
+            f"below the plausible low {tag.low}"
+            if below[i]
+            else f"above the plausible high {tag.high}"
+        )
+        batch.errors.append(
+            where(
+                i, value_field, f"value {batch.raw[i]:g} {tag.unit} of tag {tag.name!r} is {side}"
+            )
+        )
+    batch.ok &= ~(below | above)
+
+
+def _to_si(batch: _Batch, tags: list[_TagRow], atmosphere_pa: float) -> np.ndarray:
+    """SI values of the accepted items: one pint conversion per distinct unit pair."""
+    si = np.full(len(batch.raw), np.nan)
+    pairs: dict[tuple[str, str], list[int]] = {}
     for pos, tag in enumerate(tags):
-        if tag.low is None and tag.high is None:
-            continue
-        mine = batch.ok & (batch.tag_pos == pos)
-        if not mine.any():
-            continue
-        low = -np.inf if tag.low is None else tag.low
-        high = np.inf if tag.high is None else tag.high
-        out = mine & ((batch.raw < low) | (batch.raw > high))
-        for i in np.flatnonzero(out):
-            side = (
-                f"below the plausible low {tag.low}"
-                if batch.raw[i] < low
-                else (f"above the plausible high {tag.high}")
-            )
-            batch.errors.append(
-                where(
-                    i,
-                    value_field,
-                    f"value {batch.raw[i]:g} {tag.unit} of tag {tag.name!r} is {side}",
-                )
-            )
-        batch.ok &= ~out
+        pairs.setdefault((tag.unit, tag.si_unit or tag.unit), []).append(pos)
+    group = np.zeros(len(tags), dtype=np.int64)
+    for g, positions in enumerate(pairs.values()):
+        group[positions] = g
+    item_group = group[np.where(batch.tag_pos >= 0, batch.tag_pos, 0)]
+    for g, (unit, si_unit) in enumerate(pairs):
+        mine = batch.ok & (item_group == g)
+        if mine.any():
+            si[mine] = measure.to_si(batch.raw[mine], unit, si_unit, atmosphere_pa)
+    return si
 
 
 def _store(
     session: Session,
     plant: Plant,
-    tags: list[Tag],
+    tags: list[_TagRow],
     batch: _Batch,
     received: int,
     reason: str = "ingest",
 ) -> IngestReport:
-    si = np.full(len(batch.raw), np.nan)
-    for pos, tag in enumerate(tags):
-        mine = batch.ok & (batch.tag_pos == pos)
-        if mine.any():
-            si[mine] = measure.to_si(
-                batch.raw[mine], tag.unit, tag.si_unit or tag.unit, plant.atmosphere_pa
-            )
+    si = _to_si(batch, tags, plant.atmosphere_pa)
     keep = batch.ok
     tag_ids = np.array([t.id for t in tags] or [0], dtype=np.int32)[batch.tag_pos[keep]]
     ids, t_ms, values, duplicates = dedupe_last(tag_ids, batch.t_ms[keep], si[keep])
@@ -148,14 +179,15 @@ def ingest_rows(*, session: Session, batch: ReadingBatch) -> IngestReport:
     plant = get_plant_by_slug(session, batch.plant)
     items = batch.readings
     n = len(items)
-    tag_rows = list(session.scalars(select(Tag).where(Tag.plant_id == plant.id)))
+    tag_rows = _plant_tags(session, plant.id)
     index = {t.name: pos for pos, t in enumerate(tag_rows)}
-    names = [item.tag for item in items]
+    names = [item.get("tag") for item in items]
     tag_pos = np.fromiter(
         (index.get(name, -1) if type(name) is str else -1 for name in names), np.int64, n
     )
-    t_ms, time_errors = parse_times([item.time for item in items])
-    raw, null, bad = _numbers([item.value for item in items])
+    t_ms, time_errors = parse_times([item.get("time") for item in items])
+    values = [item.get("value") for item in items]
+    raw, null, bad = _numbers(values)
     b = _Batch(tag_pos=tag_pos, t_ms=t_ms, raw=raw, ok=np.ones(n, bool))
 
     def where(i: int, fld: str, message: str) -> dict[str, Any]:
@@ -173,7 +205,7 @@ def ingest_rows(*, session: Session, batch: ReadingBatch) -> IngestReport:
     for i in np.flatnonzero(null):
         b.errors.append(where(i, "value", "value is missing (null)"))
     for i in np.flatnonzero(bad):
-        b.errors.append(where(i, "value", f"value {items[i].value!r} is not a number"))
+        b.errors.append(where(i, "value", f"value {values[i]!r} is not a number"))
     b.ok &= tag_pos >= 0
     if time_errors:
         b.ok[list(time_errors)] = False
@@ -191,7 +223,7 @@ def ingest_columnar(*, session: Session, batch: ColumnarBatch) -> IngestReport:
             f"at most {MAX_ITEMS} readings per call; split the batch",
             errors=[{"field": "series", "message": f"{n_times} times x {len(batch.series)} tags"}],
         )
-    tag_rows = list(session.scalars(select(Tag).where(Tag.plant_id == plant.id)))
+    tag_rows = _plant_tags(session, plant.id)
     index = {t.name: pos for pos, t in enumerate(tag_rows)}
     t_axis, time_errors = parse_times(batch.times)
     time_ok = np.ones(n_times, bool)

@@ -1,10 +1,11 @@
 """The bulk upsert of readings, counting what it stored, replaced and left unchanged.
 
-PostgreSQL: the rows go by binary ``COPY`` into a session-local staging table (the
-buffer is built by numpy, no Python loop per row), then one
-``INSERT ... SELECT ... ON CONFLICT DO UPDATE ... WHERE value IS DISTINCT FROM`` moves
-them, returning per tag how many rows were new (``xmax = 0``) or changed and the time
-range they cover. SQLite: ``executemany`` into a temporary staging table, one query
+PostgreSQL: the binary ``COPY`` buffer is built by numpy (no Python loop per row). When
+no reading is stored yet in the batch's time range for its tags (new data, the usual
+case), the rows are copied straight into ``readings``; otherwise they are copied into a
+staging table and one ``INSERT ... SELECT ... ON CONFLICT DO UPDATE ... WHERE value IS
+DISTINCT FROM`` moves them, returning per tag how many rows were new (``xmax = 0``) or
+changed and the time range they cover. SQLite: ``executemany`` into a temporary staging table, one query
 classifying the rows against the stored ones, and one ``INSERT ... ON CONFLICT``.
 
 Both run inside the caller's transaction; the caller commits (together with the dirty
@@ -13,6 +14,7 @@ spans, so that a stored reading always has its recompute queued).
 
 from __future__ import annotations
 
+import logging
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -20,6 +22,8 @@ import numpy as np
 from sqlalchemy.orm import Session
 
 from api.core.db import lock_for_write
+
+log = logging.getLogger(__name__)
 
 STAGE = "lw_readings_stage"
 
@@ -98,21 +102,58 @@ def _pgcopy_buffer(tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray) ->
     return _PGCOPY_HEADER + rows.tobytes() + _PGCOPY_TRAILER
 
 
+def _ranges_by_tag(tag_ids: np.ndarray, t_ms: np.ndarray) -> list[tuple[int, int, int, int, int]]:
+    """(tag_id, min t_ms, max t_ms, inserted, changed) per tag, all rows counted as new."""
+    order = np.argsort(tag_ids, kind="stable")
+    tags, times = tag_ids[order], t_ms[order]
+    starts = np.flatnonzero(np.r_[True, tags[1:] != tags[:-1]])
+    counts = np.diff(np.r_[starts, len(tags)])
+    lo = np.minimum.reduceat(times, starts)
+    hi = np.maximum.reduceat(times, starts)
+    return [
+        (int(t), int(a), int(b), int(c), int(c))
+        for t, a, b, c in zip(tags[starts], lo, hi, counts, strict=True)
+    ]
+
+
 def _upsert_postgresql(
     session: Session, tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray
 ) -> list[Any]:
+    import psycopg
+
     dbapi = session.connection().connection.dbapi_connection
     assert dbapi is not None
+    buffer = _pgcopy_buffer(tag_ids, t_ms, values)
     with dbapi.cursor() as cur:
-        # ON COMMIT DELETE ROWS empties it at every commit; the explicit TRUNCATE covers
-        # several upserts inside one transaction.
+        # Fast path, the usual case of a historian pushing new data: nothing stored yet in
+        # the batch's time range for its tags, so COPY straight into the table. The
+        # primary key still guards a concurrent writer: a duplicate aborts the COPY
+        # (inside a savepoint) and the batch takes the merge path below.
         cur.execute(
-            f"CREATE TEMP TABLE IF NOT EXISTS {STAGE} "
-            "(tag_id integer, t_ms bigint, value double precision) ON COMMIT DELETE ROWS"
+            "SELECT 1 FROM readings WHERE tag_id = ANY(%s) AND t_ms BETWEEN %s AND %s LIMIT 1",
+            (np.unique(tag_ids).tolist(), int(t_ms.min()), int(t_ms.max())),
         )
-        cur.execute(f"TRUNCATE {STAGE}")
+        if cur.fetchone() is None:
+            try:
+                with (
+                    dbapi.transaction(),
+                    cur.copy(
+                        "COPY readings (tag_id, t_ms, value) FROM STDIN (FORMAT BINARY)"
+                    ) as copy,
+                ):
+                    copy.write(buffer)
+                return _ranges_by_tag(tag_ids, t_ms)
+            except psycopg.errors.UniqueViolation:
+                log.info("direct COPY met rows of a concurrent writer; merging instead")
+        # Merge path: stage the rows, then one INSERT ... ON CONFLICT that reports per tag
+        # what it inserted (xmax = 0) or changed. The staging table is created per call
+        # and dropped at its end (cheaper than emptying a kept one with TRUNCATE).
+        cur.execute(
+            f"CREATE TEMP TABLE {STAGE} "
+            "(tag_id integer, t_ms bigint, value double precision) ON COMMIT DROP"
+        )
         with cur.copy(f"COPY {STAGE} (tag_id, t_ms, value) FROM STDIN (FORMAT BINARY)") as copy:
-            copy.write(_pgcopy_buffer(tag_ids, t_ms, values))
+            copy.write(buffer)
         cur.execute(
             f"""
             WITH moved AS (
@@ -126,7 +167,9 @@ def _upsert_postgresql(
             FROM moved GROUP BY tag_id
             """
         )
-        return cur.fetchall()
+        rows = cur.fetchall()
+        cur.execute(f"DROP TABLE {STAGE}")
+        return rows
 
 
 def _upsert_sqlite(

@@ -46,12 +46,14 @@ def parse_times(raw: Sequence[Any]) -> tuple[np.ndarray, dict[int, str]]:
             )
         if is_str.any():
             idx = np.flatnonzero(is_str)
-            texts = [raw[i] for i in idx]
-            ms = _uniform_offset(texts)
-            if ms is not None:
-                out[idx] = ms
+            # Historians stamp many tags with one instant: parse each distinct text once.
+            codes, distinct = pd.factorize(pd.Series([raw[i] for i in idx], dtype=object))
+            unique_ms = _uniform_offset(list(distinct))
+            if unique_ms is not None:
+                out[idx] = unique_ms[codes]
             else:
-                ms = _parse_rfc3339(texts)
+                texts = [raw[i] for i in idx]
+                ms = _parse_rfc3339(list(distinct))[codes]
                 offset = np.fromiter((bool(_OFFSET.search(t)) for t in texts), bool, len(texts))
                 good = offset & ~np.isnan(ms)
                 out[idx[good]] = ms[good].astype(np.int64)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from engine.catalogue import UnitKind
-from engine.units import block, boiler, heat_engine, heat_pump, steam_turbine
+from engine.units import air_compressor, block, boiler, heat_engine, heat_pump, steam_turbine
 
 KINDS: tuple[UnitKind, ...] = (
     boiler.KIND,
@@ -11,4 +11,5 @@ KINDS: tuple[UnitKind, ...] = (
     steam_turbine.KIND,
     heat_engine.KIND,
     heat_pump.KIND,
+    air_compressor.KIND,
 )

@@ -406,9 +406,16 @@ def exergy_waterfall(
             )
         )
     _style(fig, x_title="", y_title=axis_title("Exergy flow", unit), height=380)
+    top = float((steps["base"] + steps["value"]).max())
     fig.update_layout(
-        barmode="overlay", hovermode="closest", bargap=0.35, margin={"b": 80, "t": 64}
+        barmode="overlay",
+        hovermode="closest",
+        bargap=0.35,
+        margin={"b": 80, "t": 72},
+        legend={"y": 1.04},
     )
+    # room above the tallest bar for its value label
+    fig.update_yaxes(range=[min(0.0, float(steps["base"].min())), 1.12 * top if top > 0 else 1])
     fig.update_xaxes(
         categoryorder="array",
         categoryarray=[wrap(label) for label in steps["label"]],

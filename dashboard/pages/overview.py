@@ -137,10 +137,13 @@ def rows(snapshot: Snapshot, choice: prefs.Prefs, now=None) -> tuple[list[dict],
     out.sort(key=lambda r: (-(r["cost"] if r["cost"] is not None else -math.inf), r["unit"]))
     currencies = {p.get("currency") for p in snapshot.plants.values() if p.get("currency")}
     currency = currencies.pop() if len(currencies) == 1 else "plant currency"
-    return out, _columns(labels, currency, snapshot.open_alerts is not None)
+    several_plants = len({r["plant"] for r in out}) > 1
+    return out, _columns(labels, currency, snapshot.open_alerts is not None, several_plants)
 
 
-def _columns(labels: dict[str, str], currency: str, with_alerts: bool) -> list[dict]:
+def _columns(
+    labels: dict[str, str], currency: str, with_alerts: bool, with_plant: bool
+) -> list[dict]:
     def numeric(col_id: str, name: str, decimals: int) -> dict:
         return {
             "id": col_id,
@@ -164,6 +167,8 @@ def _columns(labels: dict[str, str], currency: str, with_alerts: bool) -> list[d
     ]
     if with_alerts:
         columns.append(numeric("alerts", "Open alerts", 0))
+    if not with_plant:  # one plant: the page header names it
+        columns = [c for c in columns if c["id"] != "plant"]
     return columns
 
 
@@ -193,7 +198,7 @@ def summary(snapshot: Snapshot, table: list[dict]) -> html.Div:
     )
     alerts = None if snapshot.open_alerts is None else sum(snapshot.open_alerts.values())
     return cards.tiles(
-        cards.tile("Units", f"{len(table)}", sub=f"{reporting} with results"),
+        cards.tile("Units", f"{len(table)}", sub=_units_line(snapshot, reporting)),
         cards.tile(
             "Cost of drift now",
             fmt.format_money_per_hour(sum(costs), currency) if costs else "—",
@@ -214,6 +219,12 @@ def summary(snapshot: Snapshot, table: list[dict]) -> html.Div:
             sub="how stale the slowest unit is",
         ),
     )
+
+
+def _units_line(snapshot: Snapshot, reporting: int) -> str:
+    names = sorted({p.get("name") or slug for slug, p in snapshot.plants.items()})
+    where = f" · {names[0]}" if len(names) == 1 else f" · {len(names)} plants"
+    return f"{reporting} with results{where}"
 
 
 def _plain(markdown_link: str) -> str:

@@ -44,8 +44,10 @@ CUSUM = "unit-cusum"
 CAPTION = "unit-caption"
 NOTE = "unit-note"
 LINKS = "unit-links"
+PAIR = "unit-baseline-charts"
 
 DEFAULT_METRIC = "eta_1"
+HIDDEN = {"display": "none"}
 HIDDEN_METRICS = {FLAGS_METRIC, STEADY_METRIC}
 GRAPH_CONFIG = {
     "displaylogo": False,
@@ -108,6 +110,7 @@ def layout(slug: str | None = None, **_kwargs: Any) -> html.Div:
                     ),
                 ],
                 className="lw-pair",
+                id=PAIR,
             ),
             html.Div(id=LINKS, className="lw-links"),
         ]
@@ -160,9 +163,18 @@ async def load(slug: str | None, *, client: LostworkClient):
 
 def metric_options(context: UnitContext) -> list[dict[str, str]]:
     """Dropdown options: the kind's result columns, efficiencies first."""
-    items = [r for r in context.results if r["name"] not in HIDDEN_METRICS]
-    items.sort(key=lambda r: (not r["name"].startswith("eta"), r["name"]))
-    return [{"label": fmt.metric_label(r["name"]), "value": r["name"]} for r in items]
+    options = [
+        {"label": fmt.metric_label(r["name"], r.get("label")), "value": r["name"]}
+        for r in context.results
+        if r["name"] not in HIDDEN_METRICS
+    ]
+    options.sort(
+        key=lambda o: (
+            not o["value"].startswith("eta"),
+            o["value"] if o["value"].startswith("eta") else o["label"],
+        )
+    )
+    return options
 
 
 @page_callback(
@@ -223,6 +235,7 @@ def _names(context: UnitContext) -> set[str]:
     Output(CUSUM, "figure"),
     Output(CAPTION, "children"),
     Output(NOTE, "children"),
+    Output(PAIR, "style"),
     Input(CONTEXT, "data"),
     Input(METRIC, "value"),
     Input(RANGE, "value"),
@@ -235,13 +248,13 @@ async def draw(context_data, metric, preset, window, choice_data, width, *, clie
     context = UnitContext.from_store(context_data)
     if context is None or not metric:
         blank = figures.empty_figure("Choose a unit from the overview.")
-        return blank, blank, blank, None, None
+        return blank, blank, blank, None, None, HIDDEN
     start, end = _window(context, preset, window)
     try:
         own, base = await _fetch(client, context, metric, start, end, timerange.max_points(width))
     except ApiError as exc:
         blank = figures.empty_figure("No data.")
-        return blank, blank, blank, None, cards.problem(exc, doing="load results")
+        return blank, blank, blank, None, cards.problem(exc, doing="load results"), HIDDEN
     return render(context, metric, own, base, prefs.read(choice_data), start, end)
 
 
@@ -254,7 +267,8 @@ def render(
     start: pd.Timestamp,
     end: pd.Timestamp,
 ):
-    """The three figures, the caption and the note, from fetched results (pure)."""
+    """The three figures, the caption, the note and whether the baseline charts show,
+    from fetched results (pure)."""
     zone = fmt.zone_name(choice.clock, context.time_zone)
     x_title = fmt.time_axis_title(zone)
     name = fmt.metric_label(metric, own.labels.get(metric))
@@ -266,7 +280,7 @@ def render(
             f"Nothing computed for {context.name} from "
             f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)}.",
         )
-        return blank, blank, blank, None, note
+        return blank, blank, blank, None, note, HIDDEN
     actual, unit = fmt.frame_to_display(own.series(metric), metric, si_unit, choice.system)
     actual.index = fmt.to_zone(actual.index, zone)
     spans = _spans(own, zone)
@@ -295,7 +309,8 @@ def render(
         f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)} · "
         + timerange.describe_resolution(own.bucket_seconds, len(actual))
     )
-    return main, drift, cusum, caption, note
+    shown = base is not None and base.has(names["drift"])
+    return main, drift, cusum, caption, note, (None if shown else HIDDEN)
 
 
 def _shown(results: Results, column: str, metric: str, si_unit: str, system: str, zone: str):

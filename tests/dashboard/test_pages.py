@@ -73,6 +73,8 @@ def test_overview_rows_in_display_units_most_costly_first():
     assert headers["eta_1"] == "η₁ [%]"
     assert headers["headroom_w"] == "Headroom [MW]"
     assert headers["cost"] == "Cost of drift [EUR/h]"
+    assert "plant" not in headers  # one plant: named in the tiles instead
+    assert "Tarnwick Board Mill CHP" in text_of(tiles)
     assert "alerts" not in headers  # the server has no alerts yet ...
     assert note == "Alerts are not set up on this server yet."  # ... and the page says so
     assert "12.5 EUR/h" in text_of(tiles)
@@ -139,8 +141,9 @@ def _draw(client, *, preset="7d", window=None, choice=SI, width=800, metric="eta
 
 def test_unit_draw_without_baseline_says_so_and_shades_flags():
     client = fakes.FakeClient(flagged=(10, 20))
-    main, drift, cusum, caption, note = _draw(client)
+    main, drift, cusum, caption, note, pair = _draw(client)
     assert "No baseline fitted yet" in text_of(note)
+    assert pair == {"display": "none"}
     assert drift.layout.annotations[0].text == "No baseline fitted yet for this quantity."
     assert main.layout.yaxis.title.text == "First-law efficiency (HHV) [%]"
     assert main.layout.xaxis.title.text == "Time (Europe/Vienna, local)"
@@ -153,8 +156,8 @@ def test_unit_draw_without_baseline_says_so_and_shades_flags():
 
 
 def test_unit_draw_with_baseline_shows_expected_drift_and_cusum():
-    main, drift, cusum, _, note = _draw(fakes.FakeClient(baseline=True))
-    assert note is None
+    main, drift, cusum, _, note, pair = _draw(fakes.FakeClient(baseline=True))
+    assert note is None and pair is None
     assert "First-law efficiency (HHV), expected" in [t.name for t in main.data]
     assert drift.layout.yaxis.title.text == "Drift [% points]"
     assert [t.name for t in cusum.data] == ["CUSUM, upper", "CUSUM, lower"]

@@ -61,6 +61,30 @@ def db_upgrade(revision: str = "head") -> None:
     typer.echo(f"database at {revision}: {_redact(settings.database_url)}")
 
 
+@db_app.command("check")
+def db_check() -> None:
+    """Exit 0 when the database answers and is at the code's revision (health checks)."""
+    from alembic.runtime.migration import MigrationContext
+    from alembic.script import ScriptDirectory
+
+    from api.core import migrate
+    from api.core.db import create_db_engine
+
+    settings = get_settings()
+    engine = create_db_engine(settings.database_url)
+    try:
+        with engine.connect() as connection:
+            current = MigrationContext.configure(connection).get_current_revision()
+    except Exception as exc:  # any failure to connect is "not healthy"
+        _fail(f"database unreachable: {type(exc).__name__}: {exc}")
+    finally:
+        engine.dispose()
+    head = ScriptDirectory.from_config(migrate.alembic_config()).get_current_head()
+    if current != head:
+        _fail(f"database at revision {current}, the code needs {head}")
+    typer.echo(f"database ok at {head}: {_redact(settings.database_url)}")
+
+
 def _redact(url: str) -> str:
     from sqlalchemy.engine import make_url
 

@@ -92,7 +92,7 @@ def test_every_problem_is_reported_and_nothing_applied(client, admin, session) -
     assert body["detail"] == "the plant file has 6 problem(s); nothing was applied"
     by_field = {e["field"]: e["message"] for e in body["errors"]}
     assert by_field["units.turbine-x.kind"].startswith(
-        "unit 'turbine-x': unknown kind 'gas_turbine'; known: block, boiler"
+        "unit 'turbine-x': unknown kind 'gas_turbine'; known: air_compressor, block, boiler"
     )
     assert by_field["units.boiler-a.inputs.steam_flow"] == (
         "unit 'boiler-a', role 'steam_flow': required but not bound to a tag"

@@ -96,7 +96,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         "1",
         ENERGY_BALANCE_TOLERANCE,
         description=(
-            "Largest |energy_balance_error| before the balance is flagged open (only "
+            "Largest absolute energy_balance_error before the balance is flagged open (only "
             "checkable when heat_rejected is bound). Default 0.05, our choice."
         ),
         minimum=0.0,

@@ -240,7 +240,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         "1",
         ENERGY_BALANCE_TOLERANCE,
         description=(
-            "Largest |energy_balance_error| before the balance is flagged open (only "
+            "Largest absolute energy_balance_error before the balance is flagged open (only "
             "checkable when both flows are bound). Default 0.05 (AHRI 550/590 heat balance)."
         ),
         minimum=0.0,

@@ -486,7 +486,11 @@ def heat_pump_performance(
     Raises
     ------
     ValueError
-        For an unknown ``product`` (a configuration error concerning every row).
+        For an unknown ``product`` or when neither flow is bound (configuration errors
+        concerning every row).
+    KeyError
+        For a ``refrigerant`` not in :data:`engine.fluids.REFRIGERANTS` (the catalogue's
+        validation refuses it first).
 
     Notes
     -----

@@ -43,6 +43,10 @@ class Flag(IntFlag):
     """The energy balance does not close within tolerance."""
     DIRECT_INDIRECT_DISAGREE = 64
     """Direct and indirect boiler efficiency differ by more than the tolerance."""
+    NEGATIVE_UNACCOUNTED_DESTRUCTION = 128
+    """The boiler's exergy split closes only with a negative unaccounted destruction
+    beyond tolerance: the water/steam side claims more heat than the flue gas gave up,
+    which no process can do (fuel, flue-gas or water/steam measurements disagree)."""
 
 
 def _float_1d(values) -> np.ndarray:

@@ -9,7 +9,9 @@ References
 .. [1] ASME PTC 4-2013, "Fired Steam Generators", Sec. 5 (computation of results: input
    from fuel as mass flow times heating value, HHV basis). Section numbers from memory.
 .. [2] J. Szargut, D. R. Morris, F. R. Steward, "Exergy Analysis of Thermal, Chemical
-   and Metallurgical Processes", Hemisphere, 1988, Sec. 2.5 (chemical exergy of fuels).
+   and Metallurgical Processes", Hemisphere, 1988, Sec. 2.5 (chemical exergy of
+   technical fuels, the Szargut-Styrylska ratio) and Appendix Table I (standard
+   chemical exergies); used through :class:`engine.fuels.FuelProperties`.
 .. [3] A. Bejan, G. Tsatsaronis, M. Moran, "Thermal Design and Optimization", Wiley, 1996,
    Ch. 3 (chemical exergy: the reversible work of a reaction at the dead state).
    Chapter-level citation.
@@ -96,6 +98,53 @@ def _column(inputs: pd.DataFrame, name: str) -> np.ndarray | None:
     return inputs[name].to_numpy(dtype=float, na_value=np.nan)
 
 
+def heating_value_j_per_kg(inputs: pd.DataFrame, fuel: FuelProperties) -> np.ndarray:
+    """Higher heating value per row: the measured ``fuel_hhv`` if bound, else the fuel's.
+
+    Parameters
+    ----------
+    inputs : DataFrame
+        Bound role columns, optionally ``fuel_hhv`` [J/kg].
+    fuel : FuelProperties
+        The unit's fuel specification.
+
+    Returns
+    -------
+    ndarray
+        HHV per row, NaN where a measured value is missing, not finite or not positive.
+        Independent of the fuel flow, so that the heat-loss method, which needs no fuel
+        flow, still has it when the fuel meter fails. [J/kg]
+    """
+    measured = _column(inputs, "fuel_hhv")
+    if measured is None:
+        return np.full(len(inputs), float(fuel.hhv_j_per_kg))
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(measured) & (measured > 0), measured, np.nan)
+
+
+def lower_heating_value_j_per_kg(hhv_j_per_kg: np.ndarray, fuel: FuelProperties) -> np.ndarray:
+    """LHV that goes with a per-row HHV (see :func:`fuel_input`, Notes). [J/kg]
+
+    Parameters
+    ----------
+    hhv_j_per_kg : ndarray
+        Higher heating value per row. [J/kg]
+    fuel : FuelProperties
+        The unit's fuel specification.
+
+    Returns
+    -------
+    ndarray
+        NaN everywhere when the fuel's LHV is not known. [J/kg]
+    """
+    if fuel.lhv_j_per_kg is None:
+        return np.full(np.shape(hhv_j_per_kg), np.nan)
+    if fuel.ultimate is not None:
+        # The water formed is fixed by the composition, so is its latent heat.
+        return hhv_j_per_kg - (fuel.hhv_j_per_kg - fuel.lhv_j_per_kg)
+    return fuel.lhv_j_per_kg * (hhv_j_per_kg / fuel.hhv_j_per_kg)
+
+
 def fuel_input(inputs: pd.DataFrame, fuel: FuelProperties | None, kind: str) -> FuelInput:
     """Fuel mass flow, heat input (HHV and LHV), chemical exergy and reaction term.
 
@@ -124,17 +173,29 @@ def fuel_input(inputs: pd.DataFrame, fuel: FuelProperties | None, kind: str) -> 
     Mass flow: ``fuel_mass_flow`` where it is a number, otherwise ``fuel_volume_flow``
     times the fuel's density at its metering reference conditions.
 
-    A measured heating value ``HHV_m`` scales the specification: ``LHV = LHV_spec HHV_m /
-    HHV_spec`` and ``ex_ch = ex_ch,spec HHV_m / HHV_spec`` (the fuel's quality changes, its
-    ratios do not).
+    Chemical exergy: :attr:`FuelProperties.chemical_exergy_j_per_kg`, i.e. from the
+    composition whenever one is known (gases: Szargut's standard chemical exergies
+    with the ideal mixing term; solid and liquid fuels: the Szargut-Styrylska
+    correlation, [2]_), and from the configured exergy/heating-value ratio only for a
+    fuel given by heating values alone.
 
-    Reaction term: burning the fuel with air and cooling the products to the dead state
-    (water condensed) releases the HHV as heat; the reversible work of that reaction is
-    the chemical exergy (Ch. 3 in [3]_). Hence the entropy of the products exceeds
-    that of the reactants by ``s_r = (ex_ch - HHV) / T0`` per kg of fuel (negative for
-    hydrocarbons). With the interim exergy/heating-value ratio of
-    :class:`~engine.fuels.FuelProperties` this is exact by construction; composition-based
-    combustion will replace it with tabulated absolute entropies.
+    A measured heating value ``HHV_m`` scales the specification's chemical exergy,
+    ``ex_ch = ex_ch,spec HHV_m / HHV_spec`` (the fuel's quality changes, its
+    exergy-to-heating-value ratio does not). The LHV follows by
+    :func:`lower_heating_value_j_per_kg`: for a fuel with a composition,
+    ``LHV = HHV_m - (HHV_spec - LHV_spec)`` (the water formed and its latent heat are
+    fixed by the composition; the same rule as :mod:`engine.heatloss`); for a fuel
+    given by heating values only, ``LHV = LHV_spec HHV_m / HHV_spec``.
+
+    Reaction term: burning the fuel with air from the environment and bringing the
+    products to equilibrium with it (water condensed) releases the HHV as heat; the
+    reversible work of that reaction is the chemical exergy (Ch. 3 in [3]_). Hence the
+    entropy of the products exceeds that of the reactants by ``s_r = (ex_ch - HHV) / T0``
+    per kg of fuel (negative for hydrocarbons): the fuel's entropy is the one its
+    chemical exergy implies, ``S_f = (H_f + Σ N_el κ_el - Ex_f) / T0`` in the notation of
+    :mod:`engine.chemical_exergy` -- the convention of
+    :mod:`engine.boiler_exergy_split` too, so that the boiler's entropy balance and its
+    exergy split agree to round-off whichever way the exergy was obtained.
     """
     if fuel is None:
         raise ValueError(f"a {kind} burns a fuel, but the model context has none")
@@ -153,16 +214,14 @@ def fuel_input(inputs: pd.DataFrame, fuel: FuelProperties | None, kind: str) -> 
     if volume is not None and fuel.density_kg_per_m3 is not None:
         mass = np.where(np.isfinite(mass), mass, volume * fuel.density_kg_per_m3)
 
-    measured_hhv = _column(inputs, "fuel_hhv")
-    hhv = np.full(n, float(fuel.hhv_j_per_kg)) if measured_hhv is None else measured_hhv
+    hhv = heating_value_j_per_kg(inputs, fuel)
     with np.errstate(invalid="ignore"):
-        valid = np.isfinite(mass) & (mass > 0) & np.isfinite(hhv) & (hhv > 0)
+        valid = np.isfinite(mass) & (mass > 0) & np.isfinite(hhv)
     mass = np.where(valid, mass, np.nan)
     hhv = np.where(valid, hhv, np.nan)
 
-    scale = hhv / fuel.hhv_j_per_kg
-    lhv = np.full(n, np.nan) if fuel.lhv_j_per_kg is None else fuel.lhv_j_per_kg * scale
-    ex_ch = fuel.chemical_exergy_j_per_kg * scale
+    lhv = lower_heating_value_j_per_kg(hhv, fuel)
+    ex_ch = fuel.chemical_exergy_j_per_kg * (hhv / fuel.hhv_j_per_kg)
     return FuelInput(
         mass_flow_kg_per_s=mass,
         hhv_j_per_kg=hhv,

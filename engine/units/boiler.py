@@ -1,10 +1,16 @@
-"""Boiler (fired steam generator): input-output (direct) method, first and second law.
+"""Boiler (fired steam generator): input-output and heat-loss methods, first and second law.
 
 The boundary is the steam-generator envelope in the sense of ASME PTC 4 (water and
-steam in and out, fuel in) widened to the immediate surroundings at the dead-state
-temperature T0, so that flue-gas, casing and all other losses end as heat to the
-environment at T0. That widening makes the exergy *lost* with the flue gas part of
-``exergy_destroyed_and_lost_w`` and lets one entropy balance cover the whole boundary.
+steam in and out, fuel and combustion air in, flue gas and refuse out) widened to the
+immediate surroundings at the dead-state temperature T0, so that flue-gas, casing and
+all other losses end as heat to the environment at T0. That widening makes the exergy
+*lost* with the flue gas part of ``exergy_destroyed_and_lost_w`` and lets one entropy
+balance cover the whole boundary.
+
+The input-output (direct) method always runs. When the flue-gas roles are bound
+(:mod:`engine.units._boiler_indirect`), the heat-loss (indirect) method, the
+direct-indirect difference and the split of the exergy destroyed and lost into its
+parts are added as further columns; without them those columns are NaN.
 
 References
 ----------
@@ -22,6 +28,9 @@ References
    gained by the water and steam over the fuel exergy). Chapter from memory.
 .. [4] IAPWS R7-97(2012), IAPWS-IF97 (all water and steam properties, via
    :mod:`engine.steam`).
+.. [5] J. Szargut, D. R. Morris, F. R. Steward, "Exergy Analysis of Thermal, Chemical
+   and Metallurgical Processes", Hemisphere, 1988, Sec. 2.5 and Appendix Table I (fuel
+   chemical exergy from the composition, via :class:`engine.fuels.FuelProperties`).
 """
 
 from __future__ import annotations
@@ -34,7 +43,13 @@ import pandas as pd
 from engine import checks, steam
 from engine.catalogue import ModelContext, Parameter, ResultColumn, Role, UnitKind
 from engine.exergy import carnot_efficiency, flow_exergy, lost_work
-from engine.units._fuel_input import FUEL_ALTERNATIVES, FUEL_ROLES, fuel_input
+from engine.units import _boiler_indirect as indirect
+from engine.units._fuel_input import (
+    FUEL_ALTERNATIVES,
+    FUEL_ROLES,
+    fuel_input,
+    heating_value_j_per_kg,
+)
 
 MASS_BALANCE_TOLERANCE = 0.02
 """Default largest relative water mass-balance error before ENERGY_BALANCE_OPEN. [-]
@@ -141,6 +156,7 @@ ROLES: tuple[Role, ...] = (
         required=False,
         description="Spray-water temperature where it is metered." + _SPRAY_NOTE,
     ),
+    *indirect.ROLES,
 )
 
 PARAMETERS: tuple[Parameter, ...] = (
@@ -161,12 +177,14 @@ PARAMETERS: tuple[Parameter, ...] = (
         "1",
         SGEN_TOLERANCE,
         description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * fuel exergy / T0. "
-            "Default 0.01, our choice."
+            "Negative entropy generation is flagged below -sgen_tolerance * exergy supplied "
+            "/ T0, a negative unaccounted destruction below -sgen_tolerance * exergy "
+            "supplied. Default 0.01, our choice."
         ),
         minimum=0.0,
         maximum=1.0,
     ),
+    *indirect.PARAMETERS,
 )
 
 RESULTS: tuple[ResultColumn, ...] = (
@@ -182,11 +200,17 @@ RESULTS: tuple[ResultColumn, ...] = (
     ResultColumn("eta_1_lhv", "1", "First-law efficiency, LHV basis."),
     ResultColumn("water_exergy_gain_w", "W", "Flow exergy gained by water and steam."),
     ResultColumn("fuel_exergy_w", "W", "Chemical exergy of the fuel burnt."),
-    ResultColumn("eta_2", "1", "Second-law efficiency: water exergy gain over fuel exergy."),
+    ResultColumn(
+        "exergy_supplied_w",
+        "W",
+        "Exergy entering with fuel and air: the fuel's chemical exergy, plus (flue-gas "
+        "roles bound) the fuel's physical and the combustion air's exergy.",
+    ),
+    ResultColumn("eta_2", "1", "Second-law efficiency: water exergy gain over exergy supplied."),
     ResultColumn(
         "exergy_destroyed_and_lost_w",
         "W",
-        "Fuel exergy minus water exergy gain (exergy balance).",
+        "Exergy supplied minus water exergy gain (exergy balance); the sum of the split's parts.",
     ),
     ResultColumn("sgen_w_per_k", "W/K", "Entropy generation rate (entropy balance)."),
     ResultColumn("lost_work_w", "W", "T0 times entropy generation (Gouy-Stodola)."),
@@ -195,6 +219,8 @@ RESULTS: tuple[ResultColumn, ...] = (
         "1",
         "(feedwater + spray - steam - blowdown) / (feedwater + spray).",
     ),
+    *indirect.HEAT_LOSS_RESULTS,
+    *indirect.SPLIT_RESULTS,
 )
 
 
@@ -216,7 +242,7 @@ def _optional_group(inputs: pd.DataFrame, names: tuple[str, ...]) -> tuple[bool,
 def boiler_direct(
     inputs: pd.DataFrame, params: Mapping[str, float], context: ModelContext
 ) -> pd.DataFrame:
-    """Boiler efficiency by the input-output method, with exergy and entropy balances.
+    """Boiler efficiency by the input-output and heat-loss methods, exergy and entropy balances.
 
     Parameters
     ----------
@@ -235,11 +261,19 @@ def boiler_direct(
           ``reheat_out_pressure`` [Pa], ``reheat_out_temperature`` [K].
         - optional spray, all three or none: ``spray_flow`` [kg/s],
           ``spray_pressure`` [Pa], ``spray_temperature`` [K].
+        - optional heat-loss method and exergy split
+          (:data:`engine.units._boiler_indirect.ROLES`): ``flue_gas_o2`` [-],
+          ``flue_gas_temperature`` [K] and ``combustion_air_temperature`` [K] together;
+          refined by ``air_relative_humidity`` [-], ``flue_gas_co`` [-],
+          ``fuel_temperature`` [K] and ``burner_air_temperature`` [K].
     params : Mapping[str, float]
-        ``mass_balance_tolerance`` [-] and ``sgen_tolerance`` [-]; missing ones take
-        :data:`MASS_BALANCE_TOLERANCE` and :data:`SGEN_TOLERANCE`.
+        ``mass_balance_tolerance`` [-] and ``sgen_tolerance`` [-], and the heat-loss
+        parameters of :data:`engine.units._boiler_indirect.PARAMETERS`; missing ones
+        take their declared defaults.
     context : ModelContext
-        ``dead`` (T0 [K], p0 [Pa], scalar or one per row) and ``fuel``.
+        ``dead`` (T0 [K], p0 [Pa], scalar or one per row), ``fuel`` (with a composition
+        for the heat-loss method) and ``text_parameters`` (``o2_basis``: ``"dry"``, the
+        default, or ``"wet"``).
 
     Returns
     -------
@@ -247,7 +281,11 @@ def boiler_direct(
         Same index as ``inputs``; the columns of :data:`RESULTS` ([W], [W/K], [-]) and
         an integer ``flags`` column of :class:`engine.checks.Flag` bits. A row with a
         missing bound input, an impossible flow or a water/steam state outside IF97 is NaN
-        in every result with ``INPUT_OUT_OF_RANGE``; the other rows are unaffected.
+        in every result with ``INPUT_OUT_OF_RANGE``; the other rows are unaffected. The
+        heat-loss and split columns are NaN when the flue-gas roles are not bound; when
+        they are, a row with a bad flue-gas input keeps its direct results and is NaN in
+        those columns only, with ``INPUT_OUT_OF_RANGE`` (see
+        :func:`engine.units._boiler_indirect.heat_loss_and_split`).
 
     Raises
     ------
@@ -275,31 +313,40 @@ def boiler_direct(
     Exergy balance (Eq. 3.13 in [2]_; [3]_)::
 
         G = sum_out m ex - sum_in m ex,  ex = (h - h0) - T0 (s - s0)
-        F = m_f ex_ch                         eta_2 = G / F
-        exergy_destroyed_and_lost = F - G
+        F = m_f ex_ch                 (chemical exergy from the composition, [5]_)
+        E = F                         (flue-gas roles not bound: air and fuel at T0)
+        E = F + Ex_f,phys + Ex_air    (split computed: exergy supplied)
+        eta_2 = G / E                 exergy_destroyed_and_lost = E - G
+
+    With the flue-gas roles bound, ``E - G`` is split into its parts by
+    :func:`engine.boiler_exergy_split.boiler_exergy_split` (destroyed in combustion, in
+    heat transfer and unaccounted; lost with the stack gas, thermal and chemical, from
+    the casing and with unburned carbon), which add up to it.
 
     Entropy balance, independent of the exergy numbers (Ch. 2 in [2]_), with the
-    losses leaving as heat at T0 and the reaction term ``s_r = (ex_ch - HHV) / T0``
-    (the products' entropy minus the reactants' per kg of fuel at the dead state; see
-    :func:`engine.units._fuel_input.fuel_input`)::
+    losses leaving as heat at T0 and the fuel and air entering with the entropy their
+    exergy implies relative to their final equilibrium with the environment (for the
+    direct method alone the reaction term ``s_r = (ex_ch - HHV) / T0`` per kg of fuel;
+    see :func:`engine.units._fuel_input.fuel_input`)::
 
-        Sgen = sum_out m (s - s0) - sum_in m (s - s0) + Q_loss / T0 + m_f s_r
+        Sgen = sum_out m (s - s0) - sum_in m (s - s0) + Q_loss / T0 + (E - Q_fuel) / T0
         lost_work = T0 Sgen                   (Gouy-Stodola, Eq. 3.24 in [2]_)
 
-    Substituting shows ``T0 Sgen = F - G`` identically; the model computes both by
-    their own routes and the tests check that they agree to round-off. The
-    reaction-entropy assumption is exact for the interim exergy/heating-value ratio of
-    the fuel specification and will be replaced by composition-based combustion.
+    Substituting shows ``T0 Sgen = E - G`` identically; the model computes both by
+    their own routes, the split computes its parts by a third, and the tests check that
+    all agree to round-off.
 
     Flags (:mod:`engine.checks`): INPUT_OUT_OF_RANGE; NEGATIVE_ENTROPY_GENERATION when
-    ``Sgen < -sgen_tolerance F / T0``; EFFICIENCY_ABOVE_ONE when ``eta_1 > 1`` (HHV);
+    ``Sgen < -sgen_tolerance E / T0``; EFFICIENCY_ABOVE_ONE when ``eta_1 > 1`` (HHV);
     ABOVE_CARNOT when ``eta_2 > 1`` or when ``G > Q_abs (1 - T0 / T_hot)``, T_hot being
     the hottest stream (main steam or hot reheat): heat absorbed at or below T_hot can
     raise the water's exergy by at most its Carnot fraction. (A boiler's eta_1 itself is
     not bounded by that Carnot factor: it delivers heat, not work.)
     ENERGY_BALANCE_OPEN when ``|mass_balance_error| > mass_balance_tolerance``; in the
     direct method the energy balance closes by definition, so the water mass balance is
-    the closure that can be checked.
+    the closure that can be checked. With the flue-gas roles bound,
+    DIRECT_INDIRECT_DISAGREE and NEGATIVE_UNACCOUNTED_DESTRUCTION as described in
+    :func:`engine.units._boiler_indirect.heat_loss_and_split`.
 
     Examples
     --------
@@ -323,14 +370,15 @@ def boiler_direct(
     t0 = np.broadcast_to(np.asarray(dead.t0_k, dtype=float), (n,))
     h0 = np.broadcast_to(np.asarray(dead.h0_water_j_per_kg, dtype=float), (n,))
     s0 = np.broadcast_to(np.asarray(dead.s0_water_j_per_kg_k, dtype=float), (n,))
-    valid = fuel.valid & np.isfinite(t0) & np.isfinite(h0) & np.isfinite(s0)
+    # The water side on its own: the heat-loss method still uses it when the fuel meter fails.
+    water_valid = np.isfinite(t0) & np.isfinite(h0) & np.isfinite(s0)
 
     # (sign, mass flow, state): +1 leaves the boundary, -1 enters it.
     streams: list[tuple[float, np.ndarray, steam.SteamState]] = []
 
     def add(sign: float, flow: np.ndarray, state: steam.SteamState) -> None:
-        nonlocal valid
-        valid = valid & _flow_ok(flow) & state.in_range
+        nonlocal water_valid
+        water_valid = water_valid & _flow_ok(flow) & state.in_range
         streams.append((sign, flow, state))
 
     m_fw = _column(inputs, "feedwater_flow")
@@ -356,7 +404,7 @@ def boiler_direct(
 
     spray_bound, spray_complete = _optional_group(inputs, _SPRAY_ROLES)
     if spray_bound and not spray_complete:
-        valid = np.zeros(n, dtype=bool)
+        water_valid = np.zeros(n, dtype=bool)
     elif spray_bound:
         m_sp = _column(inputs, "spray_flow")
         add(
@@ -370,7 +418,7 @@ def boiler_direct(
 
     reheat_bound, reheat_complete = _optional_group(inputs, _REHEAT_ROLES)
     if reheat_bound and not reheat_complete:
-        valid = np.zeros(n, dtype=bool)
+        water_valid = np.zeros(n, dtype=bool)
     elif reheat_bound:
         m_rh = _column(inputs, "reheat_flow")
         t_rh = _column(inputs, "reheat_out_temperature")
@@ -384,6 +432,8 @@ def boiler_direct(
         add(+1.0, m_rh, steam.from_pt(_column(inputs, "reheat_out_pressure"), t_rh, _HS))
         t_hot = np.fmax(t_hot, t_rh)
 
+    valid = water_valid & fuel.valid
+
     # First law: enthalpy relative to the dead state.
     heat_absorbed = sum(sign * m * (st.h - h0) for sign, m, st in streams)
     heat_loss = fuel.heat_input_hhv_w - heat_absorbed
@@ -394,14 +444,40 @@ def boiler_direct(
 
     # Exergy route: specific flow exergy per stream.
     exergy_gain = sum(sign * m * flow_exergy(st.h, st.s, dead) for sign, m, st in streams)
-    exergy_destroyed = fuel.exergy_w - exergy_gain
-    with np.errstate(all="ignore"):
-        eta_2 = exergy_gain / fuel.exergy_w
 
-    # Entropy route: entropy balance on the widened boundary (no exergy used).
+    # Heat-loss method and exergy split, where the flue-gas roles are bound.
+    def masked(values: np.ndarray) -> np.ndarray:
+        return np.where(valid, values, np.nan)
+
+    extra = indirect.heat_loss_and_split(
+        inputs,
+        params,
+        context,
+        hhv_j_per_kg=heating_value_j_per_kg(inputs, context.fuel),
+        fuel_mass_flow_kg_per_s=fuel.mass_flow_kg_per_s,
+        heat_absorbed_w=np.where(water_valid, heat_absorbed, np.nan),
+        water_exergy_gain_w=masked(exergy_gain),
+        eta_1=masked(eta_1),
+        t0_k=t0,
+        p0_pa=np.broadcast_to(np.asarray(dead.p0_pa, dtype=float), (n,)),
+        direct_valid=valid,
+        sgen_tolerance=sgen_tolerance,
+    )
+    split = np.isfinite(extra.exergy_supplied_w)
+    exergy_supplied = np.where(split, extra.exergy_supplied_w, fuel.exergy_w)
+    # What the fuel and air bring beyond the heat of reaction, over T0, is their entropy
+    # relative to the environment they end in (see _fuel_input.fuel_input).
+    reaction = np.where(
+        split, exergy_supplied - fuel.heat_input_hhv_w, fuel.reaction_exergy_minus_heat_w
+    )
+    exergy_destroyed = exergy_supplied - exergy_gain
+    with np.errstate(all="ignore"):
+        eta_2 = exergy_gain / exergy_supplied
+
+    # Entropy route: entropy balance on the widened boundary (no exergy of water used).
     entropy_out_minus_in = sum(sign * m * (st.s - s0) for sign, m, st in streams)
     with np.errstate(all="ignore"):
-        sgen = entropy_out_minus_in + heat_loss / t0 + fuel.reaction_exergy_minus_heat_w / t0
+        sgen = entropy_out_minus_in + heat_loss / t0 + reaction / t0
 
     results = {
         "heat_absorbed_w": heat_absorbed,
@@ -412,16 +488,16 @@ def boiler_direct(
         "eta_1_lhv": eta_1_lhv,
         "water_exergy_gain_w": exergy_gain,
         "fuel_exergy_w": fuel.exergy_w,
+        "exergy_supplied_w": exergy_supplied,
         "eta_2": eta_2,
         "exergy_destroyed_and_lost_w": exergy_destroyed,
         "sgen_w_per_k": sgen,
         "lost_work_w": lost_work(sgen, t0),
         "mass_balance_error": mass_error,
     }
-    frame = pd.DataFrame(
-        {name: np.where(valid, values, np.nan) for name, values in results.items()},
-        index=inputs.index,
-    )
+    columns = {name: masked(values) for name, values in results.items()}
+    columns.update(extra.columns)
+    frame = pd.DataFrame({c.name: columns[c.name] for c in RESULTS}, index=inputs.index)
     with np.errstate(all="ignore"):
         carnot_factor = carnot_efficiency(t_hot, t0)
         exergy_per_heat = np.where(heat_absorbed > 0, exergy_gain / heat_absorbed, np.nan)
@@ -429,29 +505,33 @@ def boiler_direct(
     frame["flags"] = checks.combine(
         checks.input_out_of_range(valid),
         checks.negative_entropy_generation(
-            frame["sgen_w_per_k"], frame["fuel_exergy_w"] / t0, sgen_tolerance
+            frame["sgen_w_per_k"], frame["exergy_supplied_w"] / t0, sgen_tolerance
         ),
         checks.efficiency_above_one(frame["eta_1"]),
         checks.above_carnot(frame["eta_2"], 1.0),
         checks.above_carnot(exergy_per_heat, carnot_factor),
         checks.balance_open(frame["mass_balance_error"], mass_tolerance),
+        extra.flags,
     )
     return frame
 
 
 KIND = UnitKind(
     name=KIND_NAME,
-    title="Boiler (input-output method)",
+    title="Boiler (input-output and heat-loss methods)",
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
     model=boiler_direct,
     needs_fuel=True,
     alternatives=FUEL_ALTERNATIVES,
+    text_parameters=indirect.TEXT_PARAMETERS,
     description=(
         "Fired steam generator by the input-output (direct) method of ASME PTC 4-2013, "
         "HHV and LHV basis, with exergy and entropy balances (Gouy-Stodola). Optional "
-        "blowdown, reheat and superheater spray."
+        "blowdown, reheat and superheater spray. With the flue-gas roles bound also the "
+        "heat-loss (indirect) method in the PTC 4 structure, every loss and credit, the "
+        "direct-indirect difference and the split of the exergy destroyed and lost."
     ),
 )
 """The boiler's catalogue entry."""

@@ -139,7 +139,10 @@ def test_parameter_bounds_and_unknown_parameters():
     assert _texts(problems) == [
         "parameter 'mass_balance_tolerance': -0.01 is below the minimum 0.0",
         "parameter 'sgen_tolerance': 1.5 is above the maximum 1.0",
-        "parameter 'energy_tolerance': unknown; known: mass_balance_tolerance, sgen_tolerance",
+        "parameter 'energy_tolerance': unknown; known: mass_balance_tolerance, sgen_tolerance, "
+        "reference_temperature_k, air_humidity_ratio, surface_loss_fraction, "
+        "rated_heat_output_w, carbon_in_fly_ash, carbon_in_bottom_ash, fly_ash_fraction, "
+        "direct_indirect_tolerance",
     ]
 
 

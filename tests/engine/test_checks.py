@@ -28,6 +28,7 @@ def test_flag_bits_are_stable():
         ("ISENTROPIC_ABOVE_ONE", 16),
         ("ENERGY_BALANCE_OPEN", 32),
         ("DIRECT_INDIRECT_DISAGREE", 64),
+        ("NEGATIVE_UNACCOUNTED_DESTRUCTION", 128),
     ]
 
 

@@ -145,7 +145,7 @@ def _field_path(loc: Sequence[int | str]) -> tuple[str, int | None]:
     if parts and parts[0] in {"body", "query", "path", "header", "cookie"}:
         where = parts.pop(0)
         if not parts:
-            return where, None
+            return str(where), None
     text, index = "", None
     for part in parts:
         if isinstance(part, int):

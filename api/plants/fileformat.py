@@ -28,6 +28,9 @@ Format ``lostwork-plant/1``::
         fuel: site-gas
         inputs: {feedwater_flow: FW-FLOW, ...}     # role -> tag
         parameters: {radiation_loss: 0.4 %}        # number in the parameter's unit, or text
+    rules:                            # optional: alert rules (api.alerts.rulespec)
+      boiler-1-efficiency-low: {unit: boiler-1, kind: threshold, metric: eta_1,
+                                below: 0.82, clear_at: 0.83, for: 5 min}
 
 Quantities are a number (in the SI unit of the field, or the unit a comment names) or a
 text ``"<number> <unit>"`` read by pint (``api.measure``). Instrument uncertainty is a
@@ -38,12 +41,14 @@ keyed by name, so a name cannot appear twice (the loader refuses duplicate keys)
 from __future__ import annotations
 
 import re
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any, Final, Literal
 
 import yaml
 from pydantic import BaseModel, ConfigDict, Field, StringConstraints, field_validator
 
-FORMAT = "lostwork-plant/1"
+from api.alerts.rulespec import RuleName, RuleSpec
+
+FORMAT: Final = "lostwork-plant/1"
 SLUG_PATTERN = r"^[a-z0-9][a-z0-9-]{0,63}$"
 
 Slug = Annotated[str, StringConstraints(pattern=SLUG_PATTERN)]
@@ -176,6 +181,8 @@ class PlantFile(_Strict):
     fuels: dict[Slug, FuelSpec] = {}
     tags: dict[TagName, TagSpec] = {}
     units: dict[Slug, UnitSpec] = {}
+    rules: dict[RuleName, RuleSpec] = {}
+    """Alert rules by name (format: :mod:`api.alerts.rulespec`)."""
 
 
 class _UniqueKeyLoader(yaml.SafeLoader):

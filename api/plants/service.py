@@ -32,6 +32,7 @@ from sqlalchemy import delete, func, select
 from sqlalchemy.orm import Session, selectinload
 
 from api import measure
+from api.alerts.plantfile import check_file_rules, export_file_rules, sync_file_rules
 from api.core.db import utcnow
 from api.core.problems import InvalidInput, NotFound
 from api.plants.fileformat import PlantFile, TagSpec
@@ -197,11 +198,11 @@ def _resolve(
             err(f"units.{slug}.fuel", f"{where}: fuel {unit.fuel!r} is not defined under fuels")
         values: dict[str, float] = {}
         for pname, pvalue in unit.parameters.items():
-            spec = kind.parameter(pname)
-            if spec is None:
+            declared = kind.parameter(pname)
+            if declared is None:
                 continue  # UnitKind.validate names it
             values[pname] = quantity(
-                f"units.{slug}.parameters.{pname}", pvalue, spec.unit, atmosphere
+                f"units.{slug}.parameters.{pname}", pvalue, declared.unit, atmosphere
             )
         parameters[slug] = values
         for problem in kind.validate(unit.inputs.keys(), values, unit.fuel is not None):
@@ -345,6 +346,7 @@ def apply_plant(
             errors=[{"field": "plant.slug", "message": f"expected {expected_slug!r}"}],
         )
     resolved = _resolve(doc, default_interval_s=default_interval_s, kinds=all_kinds())
+    file_rules = check_file_rules(doc, resolved.atmosphere_pa)
 
     # Unit slugs are unique across the installation.
     taken = session.execute(
@@ -367,6 +369,7 @@ def apply_plant(
     report = ApplyReport(plant=doc.plant.slug, dry_run=dry_run)
     try:
         _write(session, resolved, report)
+        sync_file_rules(session, doc.plant.slug, file_rules, report)
         report.changed = bool(report.created or report.updated or report.deleted)
         if dry_run:
             session.rollback()
@@ -715,4 +718,5 @@ def export_plant(plant: Plant) -> dict[str, Any]:
             }
             for u in sorted(plant.units, key=lambda u: u.slug)
         },
+        **({"rules": rules} if (rules := export_file_rules(plant)) else {}),
     }

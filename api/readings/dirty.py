@@ -70,7 +70,7 @@ def mark_dirty_for_tags(
         ambient_id = session.scalar(
             select(Tag.id).where(Tag.plant_id == plant.id, Tag.name == plant.ambient_tag)
         )
-        if ambient_id in ranges:
+        if ambient_id is not None and ambient_id in ranges:
             unit_ids = session.scalars(select(Unit.id).where(Unit.plant_id == plant.id))
             touched += [(unit_id, ranges[ambient_id]) for unit_id in unit_ids]
     for unit_id, (lo, hi) in touched:

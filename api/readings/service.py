@@ -17,7 +17,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from api import measure
-from api.core.problems import InvalidInput, NotFound
+from api.core.problems import ErrorItem, InvalidInput, NotFound
 from api.plants.models import Plant, Tag
 from api.readings.dirty import mark_dirty_for_tags
 from api.readings.schemas import MAX_ITEMS, ColumnarBatch, IngestReport, ReadingBatch
@@ -161,7 +161,7 @@ def _store(
         unchanged=outcome.unchanged,
         rejected=rejected,
         duplicates=duplicates,
-        errors=errors[:MAX_LISTED_ERRORS],
+        errors=[ErrorItem(**e) for e in errors[:MAX_LISTED_ERRORS]],
         errors_truncated=max(0, len(errors) - MAX_LISTED_ERRORS),
         units_marked_dirty=units,
     )
@@ -193,7 +193,7 @@ def ingest_rows(*, session: Session, batch: ReadingBatch) -> IngestReport:
     def where(i: int, fld: str, message: str) -> dict[str, Any]:
         return {"index": int(i), "field": fld, "message": message}
 
-    for i in np.flatnonzero(tag_pos < 0):
+    for i in np.flatnonzero(tag_pos < 0).tolist():
         name = names[i]
         b.errors.append(
             where(i, "tag", f"unknown tag {name!r} for plant {plant.slug!r}")
@@ -202,9 +202,9 @@ def ingest_rows(*, session: Session, batch: ReadingBatch) -> IngestReport:
         )
     for i, message in time_errors.items():
         b.errors.append(where(i, "time", message))
-    for i in np.flatnonzero(null):
+    for i in np.flatnonzero(null).tolist():
         b.errors.append(where(i, "value", "value is missing (null)"))
-    for i in np.flatnonzero(bad):
+    for i in np.flatnonzero(bad).tolist():
         b.errors.append(where(i, "value", f"value {values[i]!r} is not a number"))
     b.ok &= tag_pos >= 0
     if time_errors:

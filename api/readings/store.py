@@ -121,7 +121,7 @@ def _upsert_postgresql(
 ) -> list[Any]:
     import psycopg
 
-    dbapi = session.connection().connection.dbapi_connection
+    dbapi: Any = session.connection().connection.dbapi_connection  # psycopg's own
     assert dbapi is not None
     buffer = _pgcopy_buffer(tag_ids, t_ms, values)
     with dbapi.cursor() as cur:
@@ -176,7 +176,7 @@ def _upsert_sqlite(
     session: Session, tag_ids: np.ndarray, t_ms: np.ndarray, values: np.ndarray
 ) -> list[Any]:
     lock_for_write(session)
-    dbapi = session.connection().connection.dbapi_connection
+    dbapi: Any = session.connection().connection.dbapi_connection  # sqlite3's own
     assert dbapi is not None
     cur = dbapi.cursor()
     try:

@@ -36,8 +36,10 @@ def parse_times(raw: Sequence[Any]) -> tuple[np.ndarray, dict[int, str]]:
         is_int = np.fromiter((type(v) is int for v in raw), dtype=bool, count=n)
         is_str = np.fromiter((type(v) is str for v in raw), dtype=bool, count=n)
         if is_int.any():
-            out[is_int] = np.asarray([raw[i] for i in np.flatnonzero(is_int)], dtype=np.int64)
-        for i in np.flatnonzero(~(is_int | is_str)):
+            out[is_int] = np.asarray(
+                [raw[i] for i in np.flatnonzero(is_int).tolist()], dtype=np.int64
+            )
+        for i in np.flatnonzero(~(is_int | is_str)).tolist():
             value = raw[i]
             errors[int(i)] = (
                 f"time {value!r} is not a whole number of epoch milliseconds"
@@ -47,12 +49,12 @@ def parse_times(raw: Sequence[Any]) -> tuple[np.ndarray, dict[int, str]]:
         if is_str.any():
             idx = np.flatnonzero(is_str)
             # Historians stamp many tags with one instant: parse each distinct text once.
-            codes, distinct = pd.factorize(pd.Series([raw[i] for i in idx], dtype=object))
+            codes, distinct = pd.factorize(pd.Series([raw[i] for i in idx.tolist()], dtype=object))
             unique_ms = _uniform_offset(list(distinct))
             if unique_ms is not None:
                 out[idx] = unique_ms[codes]
             else:
-                texts = [raw[i] for i in idx]
+                texts = [raw[i] for i in idx.tolist()]
                 ms = _parse_rfc3339(list(distinct))[codes]
                 offset = np.fromiter((bool(_OFFSET.search(t)) for t in texts), bool, len(texts))
                 good = offset & ~np.isnan(ms)
@@ -65,7 +67,7 @@ def parse_times(raw: Sequence[Any]) -> tuple[np.ndarray, dict[int, str]]:
                     )
     limit = int(time.time() * 1000) + MAX_FUTURE_MS
     bad = (out < MIN_MS) | (out > limit)
-    for i in np.flatnonzero(bad):
+    for i in np.flatnonzero(bad).tolist():
         if int(i) not in errors:
             errors[int(i)] = (
                 f"time {raw[i]!r} is before 1970"

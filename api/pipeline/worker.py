@@ -29,12 +29,14 @@ from typing import Any
 from sqlalchemy.dialects import postgresql, sqlite
 from sqlalchemy.orm import Session, sessionmaker
 
+from api.alerts.evaluate import evaluate_after_results
 from api.core.db import lock_for_write, utcnow
 from api.core.problems import NotFound
 from api.pipeline import queue
 from api.pipeline.compute import Averaging, compute_range
 from api.pipeline.queue import Claim, Clock
 from api.plants.service import load_unit_config
+from api.results.metrics import registered_metrics
 from api.results.models import ResultMeta
 from api.results.store import replace_results
 from engine.catalogue import get_kind
@@ -52,6 +54,28 @@ PRUNE_EVERY_SECONDS = 600.0
 
 ChunkCallback = Callable[[Claim, int, int], None]
 """Called after each committed chunk with the claim and the chunk's [start, end)."""
+
+AfterCompute = Callable[[Session, int, int, int], None]
+"""``(session, unit_id, start_ms, end_ms)``: runs inside a chunk's transaction after its
+results are written, before the commit (baselines, rule evaluation: whatever they write
+commits with the results or not at all). An exception fails the chunk, which is retried."""
+
+_after_compute: list[AfterCompute] = []
+
+
+def register_after_compute(hook: AfterCompute) -> None:
+    """Run ``hook`` in every chunk transaction, after the results are written."""
+    if hook not in _after_compute:
+        _after_compute.append(hook)
+
+
+def unregister_after_compute(hook: AfterCompute) -> None:
+    if hook in _after_compute:
+        _after_compute.remove(hook)
+
+
+# Alert rules judge every chunk's results in its transaction (in a savepoint of their own).
+register_after_compute(evaluate_after_results)
 
 
 def _engine_version() -> str:
@@ -136,8 +160,12 @@ def process_claim(
                 ):
                     session.rollback()
                     raise LeaseLost(f"span {claim.span_id}: lease of {claim.owner} lost")
-                replace_results(session, claim.unit_id, start, end, frame)
+                own = set(frame.columns)
+                keep = registered_metrics(config.kind) - own
+                replace_results(session, claim.unit_id, start, end, frame, keep=keep)
                 _write_meta(session, claim.unit_id, config.kind, options.clock())
+                for hook in _after_compute:
+                    hook(session, claim.unit_id, start, end)
                 session.commit()
         except LeaseLost:
             log.warning("span %s: lease lost to another worker; stopping", claim.span_id)

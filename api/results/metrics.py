@@ -10,16 +10,13 @@ from __future__ import annotations
 import re
 from collections.abc import Callable, Iterable
 
-from api.pipeline.quality import FLAGS_METRIC, PIPELINE_METRICS
+from api.pipeline.quality import PIPELINE_METRICS
 from engine.catalogue import ResultColumn, all_kinds
 
 MetricProvider = Callable[[str], Iterable[ResultColumn]]
 """Kind name -> extra metrics stored for units of that kind."""
 
 _providers: list[MetricProvider] = []
-
-BIT_OR_METRICS = frozenset({FLAGS_METRIC})
-"""Integer bit sets: aggregated by bitwise OR, never averaged."""
 
 
 def register_metric_provider(provider: MetricProvider) -> None:
@@ -39,6 +36,14 @@ def unit_metrics(kind_name: str) -> dict[str, ResultColumn]:
     for column in declared:
         out.setdefault(column.name, column)
     return out
+
+
+def registered_metrics(kind_name: str) -> set[str]:
+    """Metrics other stages declared for this kind (the pipeline leaves them alone)."""
+    names: set[str] = set()
+    for provider in _providers:
+        names |= {column.name for column in provider(kind_name)}
+    return names
 
 
 _CUT = re.compile(r"\s\(|:\s")

@@ -2,13 +2,15 @@
 
 Downsampling. When a range holds more intervals than ``max_points``, intervals are
 grouped into buckets of a whole number of plant intervals, aligned to the Unix epoch (a
-chart panned or zoomed keeps the same buckets), chosen as the shortest length giving at
-most ``max_points`` buckets over the range. The database does the grouping
-(``GROUP BY t_ms / bucket``, integer division on SQLite and PostgreSQL alike) and returns
-per bucket the mean, minimum and maximum of the interval values and how many there
-were; only those few rows cross the wire. NULL results (NaN from the model) are not
-counted. A bucket with no interval at all is not returned: the series has gaps, not
-invented zeros.
+chart panned or zoomed keeps the same buckets): the shortest length giving at most
+``max_points`` buckets, rounded up to whole rollup blocks (10 min or 1 h,
+:mod:`api.results.rollups`) when it is at least three blocks long. The database does
+the grouping (``GROUP BY t_ms / bucket``, integer division on SQLite and PostgreSQL
+alike): whole blocks from the rollups, the cut blocks at either end of the range from
+the results, combined exactly by sum and count. Per bucket it returns the mean, minimum
+and maximum of the interval values and how many there were; only those few rows cross
+the wire. NULL results (NaN from the model) are not counted. A bucket with no interval
+at all is not returned: the series has gaps, not invented zeros.
 
 The integer ``flags`` are OR-ed per bucket, never averaged: PostgreSQL has ``bit_or``;
 SQLite has no bitwise aggregate, so it groups by (bucket, flag value) — a handful of
@@ -23,6 +25,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+import pandas as pd
 from sqlalchemy import bindparam, select, text
 from sqlalchemy.orm import Session
 
@@ -30,7 +33,8 @@ from api import measure
 from api.core.problems import InvalidInput, NotFound
 from api.pipeline.quality import FLAGS_METRIC
 from api.plants.models import Plant, Unit
-from api.results.metrics import BIT_OR_METRICS, label, unit_metrics
+from api.results.metrics import label, unit_metrics
+from api.results.rollups import BIT_OR_METRICS, LEVELS_MS, sql
 from api.results.schemas import UnitSystem
 from engine.catalogue import ResultColumn
 
@@ -102,9 +106,20 @@ def rfc3339(t_ms: np.ndarray | int) -> list[str] | str:
     return texts if np.ndim(t_ms) else texts[0]
 
 
-def choose_bucket_ms(start_ms: int, end_ms: int, interval_ms: int, max_points: int) -> int | None:
-    """Shortest epoch-aligned bucket (a multiple of the interval) giving at most
-    ``max_points`` buckets over [start, end); None when the intervals themselves fit."""
+def choose_bucket_ms(
+    start_ms: int,
+    end_ms: int,
+    interval_ms: int,
+    max_points: int,
+    levels_ms: tuple[int, ...] = LEVELS_MS,
+) -> int | None:
+    """Bucket length for at most ``max_points`` epoch-aligned buckets over [start, end);
+    None when the intervals themselves fit.
+
+    The shortest multiple of the interval that fits, rounded up to a multiple of the
+    coarsest rollup level no longer than a third of it (so buckets are built from rollups
+    and at least three quarters of ``max_points`` remain).
+    """
     first = -(-start_ms // interval_ms) * interval_ms
     intervals = max(0, -(-(end_ms - first) // interval_ms))
     if intervals <= max_points:
@@ -116,7 +131,18 @@ def choose_bucket_ms(start_ms: int, end_ms: int, interval_ms: int, max_points: i
 
     while buckets(bucket) > max_points:  # at most a step or two past the estimate
         bucket += interval_ms
+    for level in sorted(levels_ms, reverse=True):
+        if level % interval_ms == 0 and 3 * level <= bucket:
+            return -(-bucket // level) * level
     return bucket
+
+
+def rollup_level(bucket_ms: int, interval_ms: int) -> int | None:
+    """The coarsest rollup level a bucket is made of, or None (from the results)."""
+    for level in sorted(LEVELS_MS, reverse=True):
+        if bucket_ms % level == 0 and level % interval_ms == 0:
+            return level
+    return None
 
 
 def resolve_metrics(unit: UnitRef, requested: list[str] | None) -> dict[str, ResultColumn]:
@@ -191,9 +217,9 @@ def query_results(
     if bucket is None:
         fetched.update(_raw(session, unit.id, list(chosen), start_ms, end_ms))
     else:
-        fetched.update(_bucketed(session, unit.id, floats, start_ms, end_ms, bucket))
+        fetched.update(_bucketed(session, unit, floats, start_ms, end_ms, bucket))
         for metric in bits:
-            fetched[metric] = _bucketed_bit_or(session, unit.id, metric, start_ms, end_ms, bucket)
+            fetched[metric] = _bucketed_bit_or(session, unit, metric, start_ms, end_ms, bucket)
     for metric, column in chosen.items():
         t, mean, low, high, count = fetched.get(metric, _EMPTY)
         aggregate = "bit_or" if metric in BIT_OR_METRICS else "mean"
@@ -254,53 +280,121 @@ def _raw(
     return _split(rows, metrics)
 
 
+def _segments(start_ms: int, end_ms: int, level: int | None) -> list[tuple[str, int, int]]:
+    """[start, end) as (source, lo, hi): whole rollup blocks from the rollups, the partial
+    blocks at either end from the results."""
+    if level is None:
+        return [("results", start_ms, end_ms)]
+    lo = -(-start_ms // level) * level
+    hi = (end_ms // level) * level
+    if lo >= hi:
+        return [("results", start_ms, end_ms)]
+    parts = [("rollups", lo, hi)]
+    if start_ms < lo:
+        parts.append(("results", start_ms, lo))
+    if hi < end_ms:
+        parts.append(("results", hi, end_ms))
+    return parts
+
+
+_BUCKET = "(t_ms / CAST(:b AS BIGINT)) * CAST(:b AS BIGINT)"
+_FLOAT_SQL = {
+    "results": (
+        f"SELECT metric, {_BUCKET} AS k, sum(value), count(value), min(value), max(value) "
+        "FROM results WHERE unit_id = :u AND metric IN :metrics "
+        "AND t_ms >= :s AND t_ms < :e GROUP BY metric, k"
+    ),
+    "rollups": (
+        f"SELECT metric, {_BUCKET} AS k, sum(total), sum(n), min(low), max(high) "
+        "FROM result_rollups WHERE unit_id = :u AND level_ms = :lv AND metric IN :metrics "
+        "AND t_ms >= :s AND t_ms < :e GROUP BY metric, k"
+    ),
+}
+_WHERE = "unit_id = :u AND metric = :m AND t_ms >= :s AND t_ms < :e"
+_BITS_SQL = {
+    ("postgresql", "results"): (
+        f"SELECT {_BUCKET} AS k, bit_or(CAST(value AS bigint)), count(value) "
+        f"FROM results WHERE {_WHERE} GROUP BY k"
+    ),
+    ("postgresql", "rollups"): (
+        f"SELECT {_BUCKET} AS k, bit_or(bits), sum(n) "
+        f"FROM result_rollups WHERE level_ms = :lv AND {_WHERE} GROUP BY k"
+    ),
+    # SQLite has no bitwise aggregate: group by the (few) distinct values, OR in numpy.
+    ("sqlite", "results"): (
+        f"SELECT {_BUCKET} AS k, CAST(value AS INTEGER) AS v, count(value) "
+        f"FROM results WHERE {_WHERE} GROUP BY k, v"
+    ),
+    ("sqlite", "rollups"): (
+        f"SELECT {_BUCKET} AS k, bits, sum(n) "
+        f"FROM result_rollups WHERE level_ms = :lv AND {_WHERE} GROUP BY k, bits"
+    ),
+}
+
+
 def _bucketed(
-    session: Session, unit_id: int, metrics: list[str], start_ms: int, end_ms: int, bucket: int
+    session: Session,
+    unit: UnitRef,
+    metrics: list[str],
+    start_ms: int,
+    end_ms: int,
+    bucket: int,
 ) -> dict[str, tuple[np.ndarray, ...]]:
+    """Per metric: bucket starts, mean, min, max, count (sums and counts of the parts
+    combined exactly)."""
     if not metrics:
         return {}
-    rows = session.execute(
-        text(
-            "SELECT metric, (t_ms / CAST(:b AS BIGINT)) * CAST(:b AS BIGINT) AS k, avg(value), min(value), max(value), "
-            "count(value) FROM results WHERE unit_id = :u AND metric IN :metrics "
-            "AND t_ms >= :s AND t_ms < :e GROUP BY metric, k ORDER BY metric, k"
-        ).bindparams(bindparam("metrics", expanding=True)),
-        {"u": unit_id, "metrics": metrics, "s": start_ms, "e": end_ms, "b": bucket},
-    ).all()
-    return _split(rows, metrics)
+    level = rollup_level(bucket, unit.interval_ms)
+    rows: list = []
+    for source, lo, hi in _segments(start_ms, end_ms, level):
+        rows += session.execute(
+            sql(_FLOAT_SQL[source]),
+            {"u": unit.id, "metrics": metrics, "s": lo, "e": hi, "b": bucket, "lv": level},
+        ).all()
+    if not rows:
+        return {}
+    parts = pd.DataFrame(rows, columns=["metric", "k", "total", "n", "low", "high"])
+    parts[["total", "low", "high"]] = parts[["total", "low", "high"]].astype(float)
+    grouped = parts.groupby(["metric", "k"], sort=True).agg(
+        total=("total", "sum"), n=("n", "sum"), low=("low", "min"), high=("high", "max")
+    )
+    out = {}
+    for metric in metrics:
+        if metric not in grouped.index.get_level_values(0):
+            continue
+        g = grouped.loc[metric]
+        n = g["n"].to_numpy(dtype=np.int64)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            mean = np.where(n > 0, g["total"].to_numpy(float) / n, np.nan)
+        out[metric] = (
+            g.index.to_numpy(dtype=np.int64),
+            mean,
+            g["low"].to_numpy(float),
+            g["high"].to_numpy(float),
+            n,
+        )
+    return out
 
 
 def _bucketed_bit_or(
-    session: Session, unit_id: int, metric: str, start_ms: int, end_ms: int, bucket: int
+    session: Session, unit: UnitRef, metric: str, start_ms: int, end_ms: int, bucket: int
 ) -> tuple[np.ndarray, ...]:
-    params = {"u": unit_id, "m": metric, "s": start_ms, "e": end_ms, "b": bucket}
-    where = "WHERE unit_id = :u AND metric = :m AND t_ms >= :s AND t_ms < :e"
-    if session.get_bind().dialect.name == "postgresql":
-        rows = session.execute(
-            text(
-                "SELECT (t_ms / CAST(:b AS BIGINT)) * CAST(:b AS BIGINT) AS k, bit_or(CAST(value AS bigint)), count(value) "
-                f"FROM results {where} GROUP BY k ORDER BY k"
-            ),
-            params,
+    dialect = "postgresql" if session.get_bind().dialect.name == "postgresql" else "sqlite"
+    level = rollup_level(bucket, unit.interval_ms)
+    rows: list = []
+    for source, lo, hi in _segments(start_ms, end_ms, level):
+        rows += session.execute(
+            text(_BITS_SQL[(dialect, source)]),
+            {"u": unit.id, "m": metric, "s": lo, "e": hi, "b": bucket, "lv": level},
         ).all()
-        t = np.fromiter((r[0] for r in rows), np.int64, len(rows))
-        ored = np.array([np.nan if r[1] is None else float(r[1]) for r in rows], dtype=float)
-        count = np.fromiter((r[2] for r in rows), np.int64, len(rows))
-        return t, ored, ored.copy(), ored.copy(), count
-    rows = session.execute(
-        text(
-            "SELECT (t_ms / CAST(:b AS BIGINT)) * CAST(:b AS BIGINT) AS k, CAST(value AS INTEGER) AS f, count(value) "
-            f"FROM results {where} GROUP BY k, f ORDER BY k"
-        ),
-        params,
-    ).all()
     if not rows:
         return _EMPTY
+    rows.sort(key=lambda r: r[0])
     k = np.fromiter((r[0] for r in rows), np.int64, len(rows))
-    flags = np.fromiter((0 if r[1] is None else r[1] for r in rows), np.int64, len(rows))
+    bits = np.fromiter((0 if r[1] is None else r[1] for r in rows), np.int64, len(rows))
     counts = np.fromiter((r[2] for r in rows), np.int64, len(rows))
     starts = np.flatnonzero(np.r_[True, k[1:] != k[:-1]])
-    ored = np.bitwise_or.reduceat(flags, starts).astype(float)
+    ored = np.bitwise_or.reduceat(bits, starts).astype(float)
     count = np.add.reduceat(counts, starts)
     ored[count == 0] = np.nan
     return k[starts], ored, ored.copy(), ored.copy(), count

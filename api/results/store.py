@@ -1,5 +1,9 @@
 """Bulk writes of results: replace a unit's results over a range in the open transaction.
 
+Every write path here keeps the hourly rollups (:mod:`api.results.rollups`) in step in
+the same transaction; code elsewhere that deletes results must use
+:func:`delete_results` for the same reason.
+
 A recomputed range replaces what was stored for it: the unit's rows in [start, end) are
 deleted, then the new rows are upserted. Intervals that no longer have inputs (readings
 deleted, a binding changed) therefore lose their old results instead of keeping numbers
@@ -15,12 +19,15 @@ NaN results are stored as NULL (so that SQL aggregates skip them).
 
 from __future__ import annotations
 
+from collections.abc import Collection
+
 import numpy as np
 import pandas as pd
 from sqlalchemy import delete
 from sqlalchemy.orm import Session
 
 from api.results.models import ResultValue
+from api.results.rollups import ResultRollup, refresh_rollups
 
 STAGE = "lw_results_stage"
 
@@ -52,22 +59,75 @@ def long_rows(frame: pd.DataFrame) -> tuple[list[str], np.ndarray, np.ndarray, n
 
 
 def replace_results(
-    session: Session, unit_id: int, start_ms: int, end_ms: int, frame: pd.DataFrame
+    session: Session,
+    unit_id: int,
+    start_ms: int,
+    end_ms: int,
+    frame: pd.DataFrame,
+    *,
+    only: Collection[str] | None = None,
+    keep: Collection[str] = (),
 ) -> int:
     """Replace the unit's results in [start, end) by ``frame`` (index t_ms, a column per
-    metric, SI). Returns the number of rows written. The caller commits."""
-    session.execute(
-        delete(ResultValue).where(
-            ResultValue.unit_id == unit_id,
-            ResultValue.t_ms >= start_ms,
-            ResultValue.t_ms < end_ms,
-        )
-    )
-    return upsert_results(session, unit_id, frame)
+    metric, SI), and their hourly rollups. The caller commits.
+
+    Deleted first: the unit's rows in the range of the metrics in ``only`` (default:
+    every metric except those in ``keep`` — the pipeline keeps what other stages store).
+    Returns the number of rows written.
+    """
+    if only is not None and keep:
+        raise ValueError("give either only or keep, not both")
+    condition = [
+        ResultValue.unit_id == unit_id,
+        ResultValue.t_ms >= start_ms,
+        ResultValue.t_ms < end_ms,
+    ]
+    if only is not None:
+        condition.append(ResultValue.metric.in_(list(only)))
+    elif keep:
+        condition.append(ResultValue.metric.not_in(list(keep)))
+    session.execute(delete(ResultValue).where(*condition))
+    written = _upsert(session, unit_id, frame)
+    refresh_rollups(session, unit_id, start_ms, end_ms)
+    return written
 
 
 def upsert_results(session: Session, unit_id: int, frame: pd.DataFrame) -> int:
-    """Insert or update one row per (metric, interval) of ``frame``."""
+    """Insert or update one row per (metric, interval) of ``frame``, and the rollups of
+    the hours it touches. The caller commits."""
+    written = _upsert(session, unit_id, frame)
+    if written:
+        t = frame.index.to_numpy(dtype=np.int64)
+        refresh_rollups(session, unit_id, int(t.min()), int(t.max()) + 1)
+    return written
+
+
+def delete_results(
+    session: Session,
+    unit_ids: Collection[int],
+    start_ms: int | None = None,
+    end_ms: int | None = None,
+) -> None:
+    """Delete units' results (all, or those in [start, end)) with their rollups."""
+    ids = list(unit_ids)
+    if not ids:
+        return
+    condition = [ResultValue.unit_id.in_(ids)]
+    if start_ms is not None:
+        condition.append(ResultValue.t_ms >= start_ms)
+    if end_ms is not None:
+        condition.append(ResultValue.t_ms < end_ms)
+    session.execute(delete(ResultValue).where(*condition))
+    if start_ms is None and end_ms is None:
+        session.execute(delete(ResultRollup).where(ResultRollup.unit_id.in_(ids)))
+        return
+    lo = start_ms if start_ms is not None else -(2**62)
+    hi = end_ms if end_ms is not None else 2**62
+    for unit_id in ids:
+        refresh_rollups(session, unit_id, lo, hi)
+
+
+def _upsert(session: Session, unit_id: int, frame: pd.DataFrame) -> int:
     if frame.empty or len(frame.columns) == 0:
         return 0
     names, metric_idx, t_rows, values = long_rows(frame)

@@ -258,9 +258,9 @@ def test_worker_dying_inside_the_transaction_loses_and_duplicates_nothing(
     real = worker.replace_results
     calls = []
 
-    def dies_on_second_chunk(session, unit_id, start, end, frame):
+    def dies_on_second_chunk(session, unit_id, start, end, frame, **kwargs):
         calls.append(start)
-        written = real(session, unit_id, start, end, frame)
+        written = real(session, unit_id, start, end, frame, **kwargs)
         if len(calls) == 2:
             raise Crash  # after writing rows, before the commit
         return written
@@ -371,3 +371,72 @@ def test_ambient_tag_gives_t0_per_interval(client, admin, ingest, session_factor
     assert got["eta_2"].iloc[0] != pytest.approx(
         expected_from_engine(values, 2, step_s=60)["eta_2"].iloc[0], rel=1e-6
     )
+
+
+def test_hooks_write_in_the_chunk_transaction_and_other_stages_metrics_survive(
+    client, plant, ingest, session_factory
+) -> None:
+    from api.results import metrics as metric_registry
+    from api.results.store import replace_results
+    from engine.catalogue import ResultColumn
+
+    def provider(kind: str):
+        return [ResultColumn("expected_eta_1", "1", "Expected eta_1 (a later stage)")]
+
+    calls: list[tuple[int, int, int]] = []
+
+    def stage(session, unit_id, start, end):
+        calls.append((unit_id, start - T0, end - T0))
+        # The stage sees the chunk's results, not yet committed, in the same transaction.
+        t = np.array(
+            session.scalars(
+                select(ResultValue.t_ms).where(
+                    ResultValue.unit_id == unit_id,
+                    ResultValue.metric == "eta_1",
+                    ResultValue.t_ms >= start,
+                    ResultValue.t_ms < end,
+                )
+            ).all(),
+            dtype=np.int64,
+        )
+        frame = pd.DataFrame(
+            {"expected_eta_1": np.full(len(t), 0.9)}, index=pd.Index(t, name="t_ms")
+        )
+        replace_results(session, unit_id, start, end, frame, only=["expected_eta_1"])
+
+    def broken(session, unit_id, start, end):
+        raise RuntimeError("rule evaluation failed")
+
+    metric_registry.register_metric_provider(provider)
+    worker.register_after_compute(stage)
+    try:
+        push(client, ingest, readings(3, step_s=60), step_s=60)
+        assert run_once(session_factory, "w1") == 1
+        assert [c[1:] for c in calls] == [(0, 4 * MIN)]
+        got = stored_results(session_factory)
+        assert got["expected_eta_1"].tolist() == [0.9, 0.9, 0.9]
+        worker.unregister_after_compute(stage)
+
+        # A recompute by the pipeline alone keeps the other stage's metric.
+        with session_factory() as s:
+            unit_id = s.scalar(select(Unit.id))
+            mark_units_dirty(session=s, spans=[(unit_id, T0, T0 + 3 * MIN)], reason="recompute")
+            s.commit()
+        assert run_once(session_factory, "w1") == 1
+        assert stored_results(session_factory)["expected_eta_1"].tolist() == [0.9, 0.9, 0.9]
+
+        # A failing hook fails the chunk: nothing of it is committed.
+        worker.register_after_compute(broken)
+        with session_factory() as s:
+            s.execute(ResultValue.__table__.delete())
+            mark_units_dirty(session=s, spans=[(unit_id, T0, T0 + 3 * MIN)], reason="recompute")
+            s.commit()
+        assert run_once(session_factory, "w1") == 0
+        assert stored_results(session_factory).empty
+        with session_factory() as s:
+            failed = s.scalars(select(WorkSpan).where(WorkSpan.state == "pending")).one()
+        assert failed.last_error == "RuntimeError: rule evaluation failed"
+    finally:
+        worker.unregister_after_compute(stage)
+        worker.unregister_after_compute(broken)
+        metric_registry._providers.remove(provider)

@@ -130,8 +130,8 @@ CHILD = textwrap.dedent(
     real = worker.replace_results
     calls = []
 
-    def slow(session, unit_id, start, end, frame):
-        written = real(session, unit_id, start, end, frame)
+    def slow(session, unit_id, start, end, frame, **kwargs):
+        written = real(session, unit_id, start, end, frame, **kwargs)
         calls.append(start)
         if len(calls) == 2:
             print("inside-second-chunk", flush=True)  # rows written, not committed

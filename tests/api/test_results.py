@@ -65,47 +65,99 @@ def three_days(seed: int = 3) -> pd.DataFrame:
     )
 
 
-def test_downsampled_min_mean_max_equal_pandas_resample(client, read, unit_id, session_factory):
+# A range whose ends cut the 10-minute and hour blocks, so that buckets are built from
+# rollups in the middle and from the results at both ends.
+START = T0 + 7 * MIN
+END = T0 + 3 * 1440 * MIN - 13 * MIN
+
+
+@pytest.mark.parametrize(
+    ("max_points", "bucket_min", "source"),
+    [
+        (300, 15, "results"),  # 4300 intervals / 300 -> 15 min: too short for rollups
+        (100, 50, "10-min rollups"),  # 44 min fits; rounded up to 10-min blocks
+        (20, 240, "hour rollups"),  # 216 min fits; rounded up to whole hours
+    ],
+)
+def test_downsampled_min_mean_max_equal_pandas_resample(
+    client, read, unit_id, session_factory, max_points, bucket_min, source
+):
     data = three_days()
     store(session_factory, unit_id, data)
     response = client.get(
         f"{URL}/results",
         params={
-            "start": iso(T0),
-            "end": iso(T0 + 3 * 1440 * MIN),
+            "start": iso(START),
+            "end": iso(END),
             "metrics": "eta_1,sgen_w_per_k",
-            "max_points": 100,
+            "max_points": max_points,
         },
         headers=read,
     )
     assert response.status_code == 200, response.text
     body = response.json()
-    # 4320 intervals into at most 100 epoch-aligned buckets: 44 min gives 4320/44 = 98.2,
-    # so 99 or 100 buckets by alignment; 43 min would give 101.
-    assert body["bucket_seconds"] == 44 * 60
+    assert body["bucket_seconds"] == bucket_min * 60
     assert (body["unit"], body["unit_system"]) == ("boiler-a", "si")
-    # Reference: pandas resample with epoch-aligned bins of the same length.
-    series = pd.Series(
-        data["eta_1"].to_numpy(), index=pd.to_datetime(data.index, unit="ms", utc=True)
-    )
-    resampled = series.resample("44min", origin="epoch")
-    ref = pd.DataFrame(
-        {
-            "mean": resampled.mean(),
-            "min": resampled.min(),
-            "max": resampled.max(),
-            "count": resampled.count(),
-        }
-    )
+    # Reference: pandas resample, bins of the same length aligned to the epoch, over the
+    # same rows.
+    inside = data[(data.index >= START) & (data.index < END)]
+    for metric in ("eta_1", "sgen_w_per_k"):
+        values = pd.Series(
+            inside[metric].to_numpy(), index=pd.to_datetime(inside.index, unit="ms", utc=True)
+        )
+        resampled = values.resample(f"{bucket_min}min", origin="epoch")
+        series = next(s for s in body["series"] if s["metric"] == metric)
+        assert len(series["t"]) <= max_points
+        assert series["t"] == [t.strftime("%Y-%m-%dT%H:%M:%SZ") for t in resampled.mean().index]
+        np.testing.assert_allclose(series["mean"], resampled.mean(), rtol=1e-12)
+        np.testing.assert_array_equal(series["min"], resampled.min())
+        np.testing.assert_array_equal(series["max"], resampled.max())
+        assert series["count"] == resampled.count().tolist()
     eta = next(s for s in body["series"] if s["metric"] == "eta_1")
     assert eta["unit"] == "1" and eta["aggregate"] == "mean"
-    assert len(eta["t"]) <= 100
-    assert eta["t"] == [t.strftime("%Y-%m-%dT%H:%M:%SZ") for t in ref.index]
-    np.testing.assert_allclose(eta["mean"], ref["mean"], rtol=1e-12)
-    np.testing.assert_allclose(eta["min"], ref["min"], rtol=0)
-    np.testing.assert_allclose(eta["max"], ref["max"], rtol=0)
-    assert eta["count"] == ref["count"].tolist()
-    assert sum(eta["count"]) == 4320 - 50
+    assert sum(eta["count"]) == int(inside["eta_1"].notna().sum())
+
+
+def test_rollups_follow_deleted_and_replaced_results(client, read, unit_id, session_factory):
+    from api.results.store import delete_results, replace_results
+
+    hours = pd.DataFrame(
+        {"eta_1": np.full(180, 0.8), "flags": np.zeros(180, dtype=np.int64)},
+        index=pd.Index(T0 + MIN * np.arange(180), name="t_ms"),
+    )
+    store(session_factory, unit_id, hours)
+    with session_factory() as s:
+        delete_results(s, [unit_id], T0 + 30 * MIN, T0 + 90 * MIN)
+        replacement = pd.DataFrame(
+            {"eta_1": [0.5] * 60, "flags": [64] * 60},
+            index=pd.Index(T0 + MIN * np.arange(120, 180), name="t_ms"),
+        )
+        replace_results(s, unit_id, T0 + 120 * MIN, T0 + 180 * MIN, replacement)
+        s.commit()
+    body = client.get(
+        f"{URL}/results",
+        params={
+            "start": iso(T0),
+            "end": iso(T0 + 180 * MIN),
+            "metrics": "eta_1,flags",
+            "max_points": 3,
+        },
+        headers=read,
+    ).json()
+    eta, flags = body["series"]
+    assert body["bucket_seconds"] == 3600
+    assert eta["count"] == [30, 30, 60]
+    assert eta["mean"] == pytest.approx([0.8, 0.8, 0.5], rel=1e-12)
+    assert flags["mean"] == [0.0, 0.0, 64.0]
+    with session_factory() as s:
+        delete_results(s, [unit_id])
+        s.commit()
+    body = client.get(
+        f"{URL}/results",
+        params={"start": iso(T0), "end": iso(T0 + 180 * MIN), "metrics": "eta_1", "max_points": 3},
+        headers=read,
+    ).json()
+    assert body["series"][0]["t"] == []
 
 
 def test_flags_are_or_ed_per_bucket_not_averaged(client, read, unit_id, session_factory):
@@ -134,19 +186,18 @@ def test_flags_or_matches_numpy_on_random_data(client, read, unit_id, session_fa
     store(session_factory, unit_id, data[["flags"]])
     response = client.get(
         f"{URL}/results",
-        params={
-            "start": iso(T0),
-            "end": iso(T0 + 3 * 1440 * MIN),
-            "metrics": "flags",
-            "max_points": 72,
-        },
+        params={"start": iso(START), "end": iso(END), "metrics": "flags", "max_points": 72},
         headers=read,
     )
     body = response.json()
+    # Hour buckets: the hour rollups in the middle, the results at the cut ends.
     assert body["bucket_seconds"] == 3600
-    groups = data["flags"].groupby(data.index.to_numpy() // 3_600_000)
+    inside = data.loc[(data.index >= START) & (data.index < END), "flags"]
+    groups = inside.groupby(inside.index.to_numpy() // 3_600_000)
     expected = groups.agg(lambda v: np.bitwise_or.reduce(v.to_numpy())).astype(float)
     assert body["series"][0]["mean"] == expected.tolist()
+    assert body["series"][0]["count"] == groups.count().tolist()
+    assert 65537.0 in expected.tolist()  # the data does exercise both bits together
 
 
 def test_us_customary_output_is_converted(client, read, unit_id, session_factory):
@@ -402,13 +453,16 @@ def test_results_need_the_read_scope(client, make_key, plant):
         (0, 10 * MIN, MIN, 10, None),  # ten intervals fit as they are
         (0, 10 * MIN, MIN, 5, 2 * MIN),
         (30_000, 10 * MIN + 30_000, MIN, 5, 3 * MIN),  # 2 min would need 6 aligned buckets
-        (0, 525_600 * MIN, MIN, 2000, 263 * MIN),  # a year of minutes for a chart
+        (0, 100 * MIN, MIN, 10, 10 * MIN),  # exactly a 10-minute block: stays
+        (0, 400 * MIN, MIN, 10, 40 * MIN),  # 40 min >= 3 x 10 min: 10-minute blocks
+        (0, 2880 * MIN, MIN, 10, 300 * MIN),  # 288 min >= 3 h: rounded up to 5 h
+        (0, 525_600 * MIN, MIN, 2000, 300 * MIN),  # a year of minutes: 263 -> 300 min
+        (0, 525_600 * 7 * MIN, 7 * MIN, 2000, 263 * 7 * MIN),  # 7 min divides no level
     ],
 )
-def test_bucket_is_the_shortest_that_fits(start, end, interval, max_points, expected):
+def test_bucket_fits_and_rounds_to_rollup_blocks(start, end, interval, max_points, expected):
     bucket = choose_bucket_ms(start, end, interval, max_points)
     assert bucket == expected
     if bucket is not None:
-        assert (end - 1) // bucket - start // bucket + 1 <= max_points
-        shorter = bucket - interval
-        assert shorter == 0 or (end - 1) // shorter - start // shorter + 1 > max_points
+        count = (end - 1) // bucket - start // bucket + 1
+        assert 0.75 * max_points - 1 <= count <= max_points

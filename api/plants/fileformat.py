@@ -15,9 +15,14 @@ Format ``lostwork-plant/1``::
         ambient_tag: AMB-T            # optional: T0 per interval from this tag
       fuel_price: {amount: 11.5, currency: EUR, per: GJ}   # HHV basis; per GJ, MWh, MMBtu
     fuels:
-      site-gas:
+      site-gas:                       # by heating values ...
         heating_value: {hhv: 52.2 MJ/kg, lhv: 47.1 MJ/kg, exergy_ratio: 1.04,
                         density: 0.79 kg/m3, co2: 50.3 kg/GJ}
+      pipeline-gas:                   # ... or by composition (mole fractions)
+        gas: {composition: {CH4: 0.94, C2H6: 0.03, N2: 0.02, CO2: 0.01},
+              volume_reference: normal}
+      bark:                           # ... or by ultimate analysis (mass fractions)
+        solid: {ultimate: {C: 0.25, H: 0.03, O: 0.21, N: 0.002, ash: 0.018, moisture: 0.49}}
     tags:
       FW-FLOW:   {unit: t/h, low: 0, high: 60, uncertainty: 1% of reading}
       DRUM-P:    {unit: barg, low: 0, high: 60, uncertainty: 0.1}
@@ -104,31 +109,47 @@ class HeatingValueSpec(_Strict):
     """CO2 per fuel energy, HHV basis (number: kg/J; ``"50.3 kg/GJ"`` reads better)."""
 
 
+VolumeReference = Literal["normal", "standard", "scf", "scf_14_73"]
+"""Metering conditions of a gas volume flow: ``normal`` 0 degC / 101.325 kPa (DIN 1343),
+``standard`` 15 degC / 101.325 kPa (ISO 13443), ``scf`` 60 degF / 14.696 psia, ``scf_14_73``
+60 degF / 14.73 psia."""
+
+
 class GasSpec(_Strict):
     composition: dict[str, float]
-    """Mole fractions by species formula (CH4, C2H6, N2, CO2, ...)."""
-    density: Quantity | None = None
-
-
-class SolidSpec(_Strict):
-    ultimate: dict[str, float]
-    """Mass fractions as received: C, H, O, N, S, ash, moisture."""
+    """Mole fractions by component: CH4, C2H6, C3H8, C4H10, H2, CO, CO2, N2, O2, H2S."""
+    volume_reference: VolumeReference = "normal"
+    """Conditions the fuel's volume flow is metered at (sets the density)."""
+    compressibility: float = Field(default=1.0, gt=0.5, le=1.1)
     hhv: Quantity | None = None
+    """A measured HHV replacing the one computed from the composition (number: J/kg)."""
+
+
+class UltimateSpec(_Strict):
+    ultimate: dict[str, float]
+    """Mass fractions as fired: C, H, O, N, S, ash, moisture (H and O without the moisture)."""
+    hhv: Quantity | None = None
+    """A measured HHV as fired (number: J/kg); else estimated from the analysis
+    (Channiwala & Parikh 2002)."""
+    density: Quantity | None = None
+    """For a liquid metered by volume (number: kg/m3)."""
 
 
 class FuelSpec(_Strict):
-    """Exactly one of ``heating_value``, ``gas``, ``solid``."""
+    """Exactly one of ``heating_value``, ``gas``, ``solid``, ``liquid``."""
 
     description: str | None = None
     heating_value: HeatingValueSpec | None = None
     gas: GasSpec | None = None
-    solid: SolidSpec | None = None
+    solid: UltimateSpec | None = None
+    liquid: UltimateSpec | None = None
 
     def basis(self) -> str:
-        given = [n for n in ("heating_value", "gas", "solid") if getattr(self, n) is not None]
+        names = ("heating_value", "gas", "solid", "liquid")
+        given = [n for n in names if getattr(self, n) is not None]
         if len(given) != 1:
             raise ValueError(
-                "give exactly one of heating_value, gas, solid"
+                "give exactly one of heating_value, gas, solid, liquid"
                 + (f" (got {', '.join(given)})" if given else "")
             )
         return given[0]

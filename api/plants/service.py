@@ -35,7 +35,7 @@ from api import measure
 from api.alerts.plantfile import check_file_rules, export_file_rules, sync_file_rules
 from api.core.db import utcnow
 from api.core.problems import InvalidInput, NotFound
-from api.plants.fileformat import PlantFile, TagSpec
+from api.plants.fileformat import FuelSpec, PlantFile, TagSpec
 from api.plants.fuels import fuel_properties
 from api.plants.models import Fuel, Plant, Tag, Unit, UnitBinding
 from api.plants.quantities import canonical_si_unit, to_si_number
@@ -620,14 +620,11 @@ class UnitConfig:
     currency: str | None
 
 
-def fuel_of(fuel: Fuel) -> FuelProperties:
-    return FuelProperties(
-        name=fuel.name,
-        hhv_j_per_kg=fuel.hhv_j_per_kg,
-        lhv_j_per_kg=fuel.lhv_j_per_kg,
-        exergy_to_lhv_ratio=fuel.exergy_to_lhv_ratio,
-        density_kg_per_m3=fuel.density_kg_per_m3,
-        co2_kg_per_j=fuel.co2_kg_per_j,
+def fuel_of(fuel: Fuel, atmosphere_pa: float) -> FuelProperties:
+    """The full FuelProperties of a stored fuel, rebuilt from its specification (so the
+    ultimate analysis and composition exergy of a composition-based fuel are kept)."""
+    return fuel_properties(
+        fuel.name, FuelSpec.model_validate(fuel.spec), atmosphere_pa=atmosphere_pa
     )
 
 
@@ -654,7 +651,7 @@ def load_unit_config(*, session: Session, unit_id: int) -> UnitConfig:
         kind=unit.kind,
         parameters={k: float(v) for k, v in params.items() if v is not None},
         bindings={b.role: b.tag_id for b in unit.bindings},
-        fuel=fuel_of(unit.fuel) if unit.fuel else None,
+        fuel=fuel_of(unit.fuel, plant.atmosphere_pa) if unit.fuel else None,
         plant_id=plant.id,
         interval_seconds=plant.interval_seconds,
         t0_k=plant.t0_k,

@@ -265,3 +265,59 @@ def test_demo_plant_file_is_valid(client, admin) -> None:
 def test_document_must_be_a_mapping(client, admin) -> None:
     body = client.post("/api/v1/plants", json=[1, 2], headers=admin).json()
     assert body["detail"] == "a plant file is a mapping with the sections plant, fuels, tags, units"
+
+
+def test_fuels_by_composition(client, admin, session) -> None:
+    from api.plants.models import Fuel
+    from api.plants.service import load_unit_config
+
+    doc = plant_document()
+    doc["fuels"]["methane"] = {"gas": {"composition": {"CH4": 1.0}}}
+    doc["fuels"]["bark"] = {
+        "solid": {
+            "ultimate": {
+                "C": 0.25,
+                "H": 0.03,
+                "O": 0.21,
+                "N": 0.002,
+                "ash": 0.018,
+                "moisture": 0.49,
+            }
+        }
+    }
+    doc["units"]["boiler-a"]["fuel"] = "methane"
+    response = apply(client, admin, doc)
+    assert response.status_code == 200, response.text
+    methane = session.scalars(select(Fuel).where(Fuel.name == "methane")).one()
+    # Methane: standard enthalpy of combustion -890.6 kJ/mol at 25 degC (NIST Chemistry
+    # WebBook, from memory) over M = 16.043 g/mol -> 55.5 MJ/kg; 0.5 % covers the spread
+    # of tabulated values (ISO 6976:2016 gives about 891.5 kJ/mol).
+    assert methane.hhv_j_per_kg == pytest.approx(890.6e3 / 16.043e-3, rel=5e-3)
+    # Ideal gas at the normal state, 0 degC and 101.325 kPa (DIN 1343), R = 8.314462618.
+    assert methane.density_kg_per_m3 == pytest.approx(
+        101_325 * 16.043e-3 / (8.314462618 * 273.15), rel=1e-3
+    )
+    unit_id = session.scalar(select(Unit.id).where(Unit.slug == "boiler-a"))
+    config = load_unit_config(session=session, unit_id=unit_id)
+    # Rebuilt from the stored section, the fuel keeps what the heat-loss method needs.
+    assert config.fuel is not None and config.fuel.kind == "gas"
+    assert config.fuel.ultimate is not None
+    assert config.fuel.ultimate.carbon == pytest.approx(12.011 / 16.043, rel=1e-3)
+
+
+def test_bad_fuel_composition_is_reported(client, admin) -> None:
+    doc = plant_document()
+    doc["fuels"]["mix"] = {"gas": {"composition": {"CH4": 0.5, "Ar": 0.5}}}
+    doc["fuels"]["both"] = {
+        "heating_value": {"hhv": "40 MJ/kg"},
+        "solid": {"ultimate": {"C": 1.0}},
+    }
+    body = apply(client, admin, doc).json()
+    by_field = {e["field"]: e["message"] for e in body["errors"]}
+    assert by_field["fuels.mix"].startswith(
+        "fuel 'mix': gas.composition: unknown gas component 'Ar'; known: CH4"
+    )
+    assert by_field["fuels.both"] == (
+        "fuel 'both': give exactly one of heating_value, gas, solid, liquid "
+        "(got heating_value, solid)"
+    )

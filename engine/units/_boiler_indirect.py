@@ -337,7 +337,6 @@ def heat_loss_and_split(
     t0_k: np.ndarray,
     p0_pa: np.ndarray,
     direct_valid: np.ndarray,
-    sgen_tolerance: float,
 ) -> Indirect:
     """Heat-loss efficiency, direct-indirect difference and exergy split of a boiler.
 
@@ -365,9 +364,6 @@ def heat_loss_and_split(
         Dead state per row. [K], [Pa]
     direct_valid : ndarray of bool
         Rows whose direct-method inputs are valid.
-    sgen_tolerance : float
-        Relative tolerance of NEGATIVE_UNACCOUNTED_DESTRUCTION, as a fraction of the
-        exergy supplied. [-]
 
     Returns
     -------
@@ -399,11 +395,15 @@ def heat_loss_and_split(
 
     Flags: DIRECT_INDIRECT_DISAGREE when ``|eta_1 - eta_1_indirect|`` exceeds
     ``direct_indirect_tolerance``; NEGATIVE_UNACCOUNTED_DESTRUCTION when
-    ``exergy_destroyed_unaccounted_w < -sgen_tolerance * exergy_supplied``: the water side
-    took more heat than the gas gave, a negative entropy generation in that part of the
-    process. The unaccounted heat also holds the two small items the split's gas model
-    leaves out: the CO loss (the split burns everything to CO2) and the difference
-    between PTC 4's heating value of unburned carbon and graphite's.
+    ``unaccounted_heat_w < -direct_indirect_tolerance * m_f HHV``: the water side took
+    more heat than the gas gave, beyond the same tolerance, so the unaccounted
+    destruction ``Q_imb (1 - T0 / T_gm)`` is negative -- a negative entropy generation
+    in that part of the process, which no process can have. It is the impossible one of
+    the two directions of a disagreement, told apart because it points at the
+    measurements rather than at an unmodelled loss. The unaccounted heat also holds the
+    small items the split's gas model leaves out: the CO loss (the split burns everything
+    to CO2), the difference between PTC 4's heating value of unburned carbon and
+    graphite's, and the sensible heat the refuse carbon leaves with.
     """
     n = len(inputs)
     names = CORE_ROLES + _EXTRA_ROLES
@@ -518,9 +518,9 @@ def heat_loss_and_split(
     )
     supplied = np.where(split_ok, supplied, np.nan)
 
-    unaccounted = columns["exergy_destroyed_unaccounted_w"]
+    tolerance_w = param("direct_indirect_tolerance") * fuel_mass_flow_kg_per_s * hhv_j_per_kg
     with np.errstate(invalid="ignore"):
-        negative_unaccounted = unaccounted < -sgen_tolerance * np.abs(supplied)
+        negative_unaccounted = columns["unaccounted_heat_w"] < -tolerance_w
     flags = checks.combine(
         checks.input_out_of_range(ok & (split_ok | ~direct_valid)),
         np.where(disagree, np.int64(checks.Flag.DIRECT_INDIRECT_DISAGREE), np.int64(0)),

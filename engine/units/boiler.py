@@ -59,8 +59,8 @@ flow meter; two such meters disagree by up to ~2 % without either being faulty.
 """
 
 SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the fuel
-exergy over T0. [-]
+"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
+exergy supplied (the fuel exergy; plus the air's with the flue-gas roles bound) over T0. [-]
 
 Our choice (no published value): 1 % of the fuel exergy is below the combined
 uncertainty of a direct-method efficiency from plant instruments, so a flag means the
@@ -178,8 +178,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         SGEN_TOLERANCE,
         description=(
             "Negative entropy generation is flagged below -sgen_tolerance * exergy supplied "
-            "/ T0, a negative unaccounted destruction below -sgen_tolerance * exergy "
-            "supplied. Default 0.01, our choice."
+            "/ T0. Default 0.01, our choice."
         ),
         minimum=0.0,
         maximum=1.0,
@@ -461,7 +460,6 @@ def boiler_direct(
         t0_k=t0,
         p0_pa=np.broadcast_to(np.asarray(dead.p0_pa, dtype=float), (n,)),
         direct_valid=valid,
-        sgen_tolerance=sgen_tolerance,
     )
     split = np.isfinite(extra.exergy_supplied_w)
     exergy_supplied = np.where(split, extra.exergy_supplied_w, fuel.exergy_w)

@@ -27,7 +27,7 @@ app.add_typer(db_app, name="db")
 app.add_typer(plant_app, name="plant")
 app.add_typer(keys_app, name="keys")
 
-COMMAND_MODULES = ("api.pipeline.commands", "api.alerts.commands")
+COMMAND_MODULES = ("api.pipeline.commands", "api.alerts.commands", "api.webhooks.commands")
 
 
 def _session_factory(settings: Settings):  # type: ignore[no-untyped-def]

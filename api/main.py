@@ -67,14 +67,34 @@ def _mount_dashboard(app: FastAPI) -> None:
         mount(app)
 
 
+NOTIFIER_THREADS = ("api.alerts.timer", "api.webhooks.worker")
+"""Modules whose ``start_embedded(settings=, session_factory=)`` run beside the compute
+worker: the staleness timer and the webhook delivery worker."""
+
+
+def _start_notifiers(app: FastAPI) -> list[Any]:
+    settings: Settings = app.state.settings
+    if not settings.embedded_worker:
+        return []
+    handles = []
+    for name in NOTIFIER_THREADS:
+        if importlib.util.find_spec(name) is not None:
+            module = importlib.import_module(name)
+            handles.append(
+                module.start_embedded(settings=settings, session_factory=app.state.session_factory)
+            )
+    return handles
+
+
 @asynccontextmanager
 async def _lifespan(app: FastAPI) -> AsyncIterator[None]:
-    handle = _start_worker(app)
+    handles = [_start_worker(app), *_start_notifiers(app)]
     try:
         yield
     finally:
-        if handle is not None and hasattr(handle, "stop"):
-            handle.stop()
+        for handle in handles:
+            if handle is not None and hasattr(handle, "stop"):
+                handle.stop()
         if app.state.owns_engine:
             app.state.engine.dispose()
 

@@ -38,6 +38,19 @@ class Settings(BaseSettings):
     webhook_allow_list: Annotated[list[str], NoDecode] = Field(default_factory=list)
     """Hosts or CIDR ranges webhooks may reach although private or loopback
     (comma-separated in the environment)."""
+    webhook_timeout_seconds: float = Field(default=15.0, gt=0, le=300)
+    """Timeout of one webhook delivery attempt (Standard Webhooks recommends 15 to 30 s). [s]"""
+    webhook_max_age_seconds: float = Field(default=86_400.0, gt=0)
+    """A webhook event still undelivered this long after it was created is marked
+    failed (no more retries). [s]"""
+    webhook_backoff_seconds: float = Field(default=5.0, gt=0)
+    """First retry delay; doubles per attempt, with jitter. [s]"""
+    webhook_backoff_max_seconds: float = Field(default=3_600.0, gt=0)
+    """Longest delay between two attempts. [s]"""
+    webhook_poll_seconds: float = Field(default=1.0, gt=0)
+    """Pause of an idle delivery worker between looks at the outbox. [s]"""
+    alert_stale_check_seconds: float = Field(default=30.0, gt=0)
+    """How often the data-staleness rules are evaluated (a timer, not results). [s]"""
     log_level: str = "INFO"
     embedded_worker: bool = True
     """Run the compute worker as a thread inside ``lostwork serve``."""

@@ -1,0 +1,1 @@
+"""Alert rules, their evaluation, and the alert lifecycle (firing -> resolved, acknowledged)."""

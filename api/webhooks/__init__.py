@@ -1,0 +1,1 @@
+"""Webhook subscriptions, the event outbox, signed delivery with retries, address policy."""

@@ -14,16 +14,28 @@ from dataclasses import dataclass, field
 
 from dashboard.formatting import metric_label
 
-INPUT_METRICS = ("fuel_exergy_w", "exergy_in_w", "steam_exergy_drop_w")
-"""Result columns that are a unit's exergy input, in order of preference."""
+INPUT_METRICS = (
+    "exergy_supplied_w",
+    "exergy_in_w",
+    "fuel_exergy_w",
+    "heat_input_exergy_w",
+    "electric_power_w",
+)
+"""Result columns that are a unit's exergy input, in order of preference (the boiler's
+``exergy_supplied_w`` includes the air's and the fuel's sensible exergy, so its balance
+closes on it rather than on ``fuel_exergy_w``)."""
 PRODUCT_METRICS = (
     "water_exergy_gain_w",
     "net_power_w",
     "generator_power_w",
     "shaft_power_w",
+    "work_output_w",
+    "compressed_air_exergy_w",
     "exergy_product_w",
 )
 """Result columns that are a unit's exergy product, in order of preference."""
+LOSS_METRICS = ("rejected_heat_exergy_w",)
+"""Loss columns not named ``exergy_lost_*``."""
 TOTAL_METRIC = "exergy_destroyed_and_lost_w"
 GOUY_STODOLA_METRIC = "lost_work_w"
 
@@ -101,7 +113,8 @@ def build_account(means: Mapping[str, float]) -> ExergyAccount | None:
     lost = {
         metric_label(m, _where(m, "exergy_lost_")): v
         for m in sorted(means)
-        if m.startswith("exergy_lost_") and m.endswith("_w") and (v := _value(means, m)) is not None
+        if (m.startswith("exergy_lost_") and m.endswith("_w") or m in LOSS_METRICS)
+        and (v := _value(means, m)) is not None
     }
     total = _value(means, TOTAL_METRIC)
     if not lost and total is not None and destroyed:
@@ -126,7 +139,7 @@ def _where(metric: str, prefix: str) -> str:
 
 def wanted_metrics(available) -> list[str]:
     """Of a unit kind's result columns, those an exergy account is built from."""
-    fixed = {*INPUT_METRICS, *PRODUCT_METRICS, TOTAL_METRIC, GOUY_STODOLA_METRIC}
+    fixed = {*INPUT_METRICS, *PRODUCT_METRICS, *LOSS_METRICS, TOTAL_METRIC, GOUY_STODOLA_METRIC}
     return [
         m for m in available if m in fixed or m.startswith(("exergy_destroyed_", "exergy_lost_"))
     ]

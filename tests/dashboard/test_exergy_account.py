@@ -99,3 +99,45 @@ def test_no_account_without_input_or_product():
 def test_wanted_metrics_picks_exergy_columns():
     names = ["eta_1", "fuel_exergy_w", "water_exergy_gain_w", "exergy_lost_stack_w", "sgen_w_per_k"]
     assert wanted_metrics(names) == ["fuel_exergy_w", "water_exergy_gain_w", "exergy_lost_stack_w"]
+
+
+def test_boiler_with_the_exergy_split_closes_on_exergy_supplied():
+    # engine.boiler_exergy_split: Ex_fuel + Ex_air - dEx_water = sum destroyed + sum lost,
+    # reported as exergy_supplied_w; invented period means that close by construction.
+    means = {
+        "fuel_exergy_w": 23.0e6,
+        "exergy_supplied_w": 23.2e6,
+        "water_exergy_gain_w": 9.9e6,
+        "exergy_destroyed_combustion_w": 7.1e6,
+        "exergy_destroyed_heat_transfer_w": 4.9e6,
+        "exergy_destroyed_unaccounted_w": -0.1e6,
+        "exergy_lost_stack_thermal_w": 1.0e6,
+        "exergy_lost_stack_chemical_w": 0.3e6,
+        "exergy_lost_surface_w": 0.1e6,
+        "exergy_lost_unburned_w": float("nan"),
+        "lost_work_w": 13.3e6,
+    }
+    account = build_account(means)
+    assert account.input_label == "Exergy supplied (fuel and air)"
+    assert sum(account.destroyed.values()) == pytest.approx(11.9e6)
+    assert account.destroyed["Destroyed, unaccounted (energy imbalance)"] == pytest.approx(-0.1e6)
+    assert set(account.lost) == {
+        "Lost with the stack gas, thermal",
+        "Lost with the stack gas, chemical",
+        "Lost from the casing",
+    }
+    assert account.mismatch_w == pytest.approx(0.0, abs=1.0)
+
+
+def test_heat_engine_loses_its_rejected_heat_exergy():
+    account = build_account(
+        {
+            "heat_input_exergy_w": 10.0,
+            "work_output_w": 4.0,
+            "exergy_destroyed_w": 5.0,
+            "rejected_heat_exergy_w": 1.0,
+        }
+    )
+    assert account.destroyed == {"Destroyed inside the unit": 5.0}
+    assert account.lost == {"Lost with the rejected heat": 1.0}
+    assert account.mismatch_w == pytest.approx(0.0)

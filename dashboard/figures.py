@@ -7,11 +7,13 @@ label to print; every axis title states its unit, time axes state their clock.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from enum import IntFlag
 
 import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
+from api.pipeline.quality import DataFlag
 from dashboard.formatting import format_number
 from dashboard.palette import CARD, COPPER, INK, MUTED, PLUM, RULE, SAND, SIGNAL, SLATE, TIDE
 from dashboard.palette import with_alpha as _alpha
@@ -244,18 +246,40 @@ def flag_label(flag: Flag) -> str:
     return (flag.name or str(int(flag))).replace("_", " ").capitalize()
 
 
-def flag_spans(flags: pd.Series, bucket_seconds: float | None = None) -> pd.DataFrame:
-    """Time spans during which each consistency flag bit is set.
+FLAG_TYPES: tuple[type[IntFlag], ...] = (Flag, DataFlag)
+"""Bits of the stored ``flags`` metric: the engine's consistency bits and the pipeline's
+data-quality bits (THIN_DATA, AMBIENT_DEFAULT)."""
+
+
+def _named_bits(flag_types: Sequence[type[IntFlag]]) -> list[tuple[int, str]]:
+    found = {}
+    for flag_type in flag_types:
+        for flag in flag_type:
+            value = int(flag.value)
+            if value and value & (value - 1) == 0:  # single bits only
+                found.setdefault(value, flag_label(flag))
+    return sorted(found.items())
+
+
+def flag_spans(
+    flags: pd.Series,
+    bucket_seconds: float | None = None,
+    flag_types: Sequence[type[IntFlag]] = FLAG_TYPES,
+) -> pd.DataFrame:
+    """Time spans during which each flag bit is set.
 
     Parameters
     ----------
     flags : Series
-        The integer ``flags`` result column (bits of :class:`engine.checks.Flag`; a
-        downsampled bucket holds the OR of its intervals) on a time index; NaN means
-        no result and sets no flag.
+        The integer ``flags`` result column (bits of :class:`engine.checks.Flag` and of
+        the pipeline's data flags; a downsampled bucket holds the OR of its intervals) on
+        a time index; NaN means no result and sets no flag.
     bucket_seconds : float, optional
         Length of one point; the last span of a run ends one point after its last
         start. Inferred from the index spacing when not given. [s]
+    flag_types : sequence of IntFlag classes
+        Where bit names come from; a set bit that none of them names is reported as
+        ``"Flag bit N"``.
 
     Returns
     -------
@@ -268,11 +292,13 @@ def flag_spans(flags: pd.Series, bucket_seconds: float | None = None) -> pd.Data
     known = np.isfinite(values)
     bits = np.where(known, values, 0).astype(np.int64)
     step = _step(index, bucket_seconds)
+    named = _named_bits(flag_types)
+    seen = np.bitwise_or.reduce(bits) if len(bits) else 0
+    unnamed = int(seen) & ~sum(value for value, _ in named)
+    extra = [(1 << n, f"Flag bit {n}") for n in range(63) if unnamed & (1 << n)]
     rows = []
-    for flag in Flag:
-        if flag.value == 0:
-            continue
-        rows += _spans((bits & flag.value) != 0, index, step, flag_label(flag))
+    for value, label in sorted(named + extra):
+        rows += _spans((bits & value) != 0, index, step, label)
     return pd.DataFrame(rows, columns=["start", "end", "reason"])
 
 

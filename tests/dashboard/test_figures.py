@@ -69,6 +69,16 @@ def test_flags_decode_bit_by_bit_into_spans():
     ]
 
 
+def test_pipeline_data_bits_and_unknown_bits_are_decoded_too():
+    # api.pipeline.quality.DataFlag: THIN_DATA = 1 << 16; bit 40 is named by nobody.
+    flags = pd.Series([0, 65536, 65536 | (1 << 40), 0, 0, 0], index=T, dtype=float)
+    spans = figures.flag_spans(flags, bucket_seconds=600)
+    assert spans.to_dict("records") == [
+        {"start": T[1], "end": T[3], "reason": "Thin data"},
+        {"start": T[2], "end": T[3], "reason": "Flag bit 40"},
+    ]
+
+
 def test_every_flag_bit_of_the_engine_has_a_label():
     labels = {figures.flag_label(f) for f in Flag if f.value}
     assert "Direct indirect disagree" in labels

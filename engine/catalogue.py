@@ -171,10 +171,16 @@ class UnitKind:
     """Groups of optional roles of which at least one must be bound (mass or volume flow)."""
     text_parameters: tuple[TextParameter, ...] = ()
     """Name-valued parameters (a refrigerant); numeric ones are in ``parameters``."""
+    fuel_roles: tuple[str, ...] = ()
+    """Optional roles that burn the unit's fuel: binding any of them makes a fuel required
+    (an HRSG's duct firing), for kinds that do not need one otherwise (``needs_fuel``)."""
     _role_index: dict[str, Role] = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         self._role_index.update({r.name: r for r in self.roles})
+        for name in self.fuel_roles:
+            if name not in self._role_index:
+                raise ValueError(f"{self.name}: fuel role {name!r} is not a role of the kind")
         numeric = {p.name for p in self.parameters}
         for spec in self.text_parameters:
             if spec.name in numeric:
@@ -302,6 +308,11 @@ class UnitKind:
                 )
         if self.needs_fuel and not has_fuel:
             problems.append(Problem("fuel", f"a {self.name} burns a fuel; name one"))
+        elif not has_fuel and (burning := [r for r in self.fuel_roles if r in bound]):
+            names = ", ".join(repr(r) for r in burning)
+            problems.append(
+                Problem("fuel", f"{names} bound: the {self.name} then burns a fuel; name one")
+            )
         return problems
 
 

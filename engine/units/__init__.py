@@ -3,7 +3,15 @@
 from __future__ import annotations
 
 from engine.catalogue import UnitKind
-from engine.units import air_compressor, block, boiler, heat_engine, heat_pump, steam_turbine
+from engine.units import (
+    air_compressor,
+    block,
+    boiler,
+    gas_turbine,
+    heat_engine,
+    heat_pump,
+    steam_turbine,
+)
 
 KINDS: tuple[UnitKind, ...] = (
     boiler.KIND,
@@ -12,4 +20,5 @@ KINDS: tuple[UnitKind, ...] = (
     heat_engine.KIND,
     heat_pump.KIND,
     air_compressor.KIND,
+    gas_turbine.KIND,
 )

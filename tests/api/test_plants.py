@@ -85,14 +85,14 @@ def test_every_problem_is_reported_and_nothing_applied(client, admin, session) -
     unit["inputs"]["flue_gas_colour"] = "SPARE"  # no such role
     unit["inputs"]["feedwater_flow"] = "FW-FLOWW"  # no such tag
     unit["parameters"]["mass_balance_tolerance"] = 1.5  # above the maximum 1
-    doc["units"]["turbine-x"] = {"name": "X", "kind": "gas_turbine", "inputs": {}}
+    doc["units"]["turbine-x"] = {"name": "X", "kind": "perpetual_motion", "inputs": {}}
     response = apply(client, admin, doc)
     body = response.json()
     assert response.status_code == 422
     assert body["detail"] == "the plant file has 6 problem(s); nothing was applied"
     by_field = {e["field"]: e["message"] for e in body["errors"]}
     assert by_field["units.turbine-x.kind"].startswith(
-        "unit 'turbine-x': unknown kind 'gas_turbine'; known: air_compressor, block, boiler"
+        "unit 'turbine-x': unknown kind 'perpetual_motion'; known: air_compressor, block, boiler"
     )
     assert by_field["units.boiler-a.inputs.steam_flow"] == (
         "unit 'boiler-a', role 'steam_flow': required but not bound to a tag"

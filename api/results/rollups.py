@@ -19,16 +19,34 @@ import re
 from collections.abc import Collection
 
 import numpy as np
-from sqlalchemy import BigInteger, Float, ForeignKey, Integer, String, TextClause, bindparam, text
+from sqlalchemy import (
+    BigInteger,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    String,
+    TextClause,
+    bindparam,
+    text,
+)
 from sqlalchemy.orm import Mapped, Session, mapped_column
 
 from api.core.db import Base
+from api.results.models import ResultValue
 
 LEVELS_MS = (600_000, 3_600_000)
 """Rollup block lengths: 10 minutes and one hour. [ms]"""
 BIT_OR_METRICS = frozenset({"flags"})
 """Integer bit sets: aggregated by bitwise OR, never averaged. (Here rather than beside
 the metric declarations so that importing the tables does not import the engine.)"""
+
+
+RESULTS_BY_TIME = Index("ix_results_unit_id_t_ms", ResultValue.unit_id, ResultValue.t_ms)
+"""Results by (unit, time) across metrics: the range deletes of a recompute and the
+rollup refreshes read a unit's rows over a time range whatever the metric, which the
+primary key (unit, metric, time) cannot serve without scanning the whole unit. Declared
+here, beside its users, rather than in the table's module."""
 
 
 class ResultRollup(Base):

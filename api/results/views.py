@@ -29,6 +29,15 @@ def _values(arr: np.ndarray) -> list[float | None]:
 
 
 def _body(results: service.ResultSet) -> dict:
+    texts: dict[bytes, list[str]] = {}
+
+    def times(t_ms: np.ndarray) -> list[str]:
+        # Series of one request nearly always share their bucket starts: format once.
+        key = t_ms.tobytes()
+        if key not in texts:
+            texts[key] = service.rfc3339(t_ms) if len(t_ms) else []  # type: ignore[assignment]
+        return texts[key]
+
     return {
         "unit": results.unit,
         "start": service.rfc3339(results.start_ms),
@@ -41,7 +50,7 @@ def _body(results: service.ResultSet) -> dict:
                 "unit": s.unit,
                 "label": s.label,
                 "aggregate": s.aggregate,
-                "t": service.rfc3339(s.t_ms) if len(s.t_ms) else [],
+                "t": times(s.t_ms),
                 "mean": _values(s.mean),
                 "min": _values(s.min),
                 "max": _values(s.max),

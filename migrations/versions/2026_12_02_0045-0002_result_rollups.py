@@ -1,5 +1,6 @@
 """Rollups of results per 10 minutes and per hour (count, sum, min, max, OR of flags) for
-fast long-range charts.
+fast long-range charts; an index of results by (unit, time) for range deletes and
+rollup refreshes.
 
 Revision ID: 0002
 Revises: 0001
@@ -20,6 +21,7 @@ LEVELS_MS = (600_000, 3_600_000)
 
 
 def upgrade() -> None:
+    op.create_index("ix_results_unit_id_t_ms", "results", ["unit_id", "t_ms"], unique=False)
     op.create_table(
         "result_rollups",
         sa.Column("unit_id", sa.Integer(), nullable=False),
@@ -79,3 +81,4 @@ def upgrade() -> None:
 
 def downgrade() -> None:
     op.drop_table("result_rollups")
+    op.drop_index("ix_results_unit_id_t_ms", table_name="results")

@@ -25,7 +25,6 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 from sqlalchemy import bindparam, select, text
 from sqlalchemy.orm import Session
 
@@ -353,26 +352,34 @@ def _bucketed(
         ).all()
     if not rows:
         return {}
-    parts = pd.DataFrame(rows, columns=["metric", "k", "total", "n", "low", "high"])
-    parts[["total", "low", "high"]] = parts[["total", "low", "high"]].astype(float)
-    grouped = parts.groupby(["metric", "k"], sort=True).agg(
-        total=("total", "sum"), n=("n", "sum"), low=("low", "min"), high=("high", "max")
-    )
+    return _combine(rows, metrics)
+
+
+def _combine(rows: list, metrics: list[str]) -> dict[str, tuple[np.ndarray, ...]]:
+    """Partial aggregates (metric, k, sum, count, min, max) -> one per (metric, k)."""
+    # Column by column: indexing rows is far faster than unpacking them with zip(*rows).
+    names, k, total, n, low, high = ([r[i] for r in rows] for i in range(6))
+    position = {m: i for i, m in enumerate(metrics)}
+    midx = np.fromiter((position[m] for m in names), np.int64, len(names))
+    k_arr = np.asarray(k, dtype=np.int64)
+    order = np.lexsort((k_arr, midx))
+    midx, k_arr = midx[order], k_arr[order]
+    total_arr = np.nan_to_num(np.asarray(total, dtype=float)[order])  # NULL sum: no values
+    n_arr = np.asarray(n, dtype=np.int64)[order]
+    low_arr = np.asarray(low, dtype=float)[order]
+    high_arr = np.asarray(high, dtype=float)[order]
+    starts = np.flatnonzero(np.r_[True, (midx[1:] != midx[:-1]) | (k_arr[1:] != k_arr[:-1])])
+    count = np.add.reduceat(n_arr, starts)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = np.where(count > 0, np.add.reduceat(total_arr, starts) / count, np.nan)
+    lows = np.fmin.reduceat(low_arr, starts)
+    highs = np.fmax.reduceat(high_arr, starts)
+    group_metric = midx[starts]
     out = {}
-    for metric in metrics:
-        if metric not in grouped.index.get_level_values(0):
-            continue
-        g = grouped.loc[metric]
-        n = g["n"].to_numpy(dtype=np.int64)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            mean = np.where(n > 0, g["total"].to_numpy(float) / n, np.nan)
-        out[metric] = (
-            g.index.to_numpy(dtype=np.int64),
-            mean,
-            g["low"].to_numpy(float),
-            g["high"].to_numpy(float),
-            n,
-        )
+    for i, metric in enumerate(metrics):
+        mask = group_metric == i
+        if mask.any():
+            out[metric] = (k_arr[starts][mask], mean[mask], lows[mask], highs[mask], count[mask])
     return out
 
 

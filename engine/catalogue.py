@@ -174,6 +174,9 @@ class UnitKind:
     fuel_roles: tuple[str, ...] = ()
     """Optional roles that burn the unit's fuel: binding any of them makes a fuel required
     (an HRSG's duct firing), for kinds that do not need one otherwise (``needs_fuel``)."""
+    load_result: str | None = None
+    """The result column that measures how hard the unit works (its load: heat absorbed,
+    power, duty); baselines regress on it and steady-state detection watches it."""
     _role_index: dict[str, Role] = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -181,6 +184,8 @@ class UnitKind:
         for name in self.fuel_roles:
             if name not in self._role_index:
                 raise ValueError(f"{self.name}: fuel role {name!r} is not a role of the kind")
+        if self.load_result is not None and self.load_result not in {r.name for r in self.results}:
+            raise ValueError(f"{self.name}: load result {self.load_result!r} is not a result")
         numeric = {p.name for p in self.parameters}
         for spec in self.text_parameters:
             if spec.name in numeric:

@@ -512,6 +512,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="free_air_delivery_m3_per_s",
     model=air_compressor_performance,
     alternatives=(("free_air_delivery", "air_mass_flow"),),
     description=(

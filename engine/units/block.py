@@ -287,6 +287,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="net_power_w",
     model=block_performance,
     needs_fuel=True,
     alternatives=FUEL_ALTERNATIVES,

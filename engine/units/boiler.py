@@ -520,6 +520,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="heat_absorbed_w",
     model=boiler_direct,
     needs_fuel=True,
     alternatives=FUEL_ALTERNATIVES,

@@ -756,6 +756,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="generator_power_w",
     model=gas_turbine_performance,
     needs_fuel=True,
     alternatives=FUEL_ALTERNATIVES,

@@ -292,6 +292,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="work_output_w",
     model=heat_engine_performance,
     description=(
         "Any engine turning heat into work measured at its boundary (reciprocating engine, "

@@ -673,6 +673,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="cooling_w",
     model=heat_pump_performance,
     alternatives=(("evaporator_flow", "condenser_flow"),),
     text_parameters=TEXT_PARAMETERS,

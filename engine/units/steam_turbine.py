@@ -699,6 +699,7 @@ KIND = UnitKind(
     roles=ROLES,
     parameters=PARAMETERS,
     results=RESULTS,
+    load_result="generator_power_w",
     model=steam_turbine,
     port_groups=(EXTRACTION,),
     description=(

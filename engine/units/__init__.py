@@ -10,6 +10,7 @@ from engine.units import (
     gas_turbine,
     heat_engine,
     heat_pump,
+    hrsg,
     steam_turbine,
 )
 
@@ -21,4 +22,5 @@ KINDS: tuple[UnitKind, ...] = (
     heat_pump.KIND,
     air_compressor.KIND,
     gas_turbine.KIND,
+    hrsg.KIND,
 )

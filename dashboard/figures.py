@@ -311,27 +311,48 @@ def steady_spans(steady: pd.Series, bucket_seconds: float | None = None) -> pd.D
     return pd.DataFrame(rows, columns=["start", "end", "reason"])
 
 
+SHADE_AXIS = "y9"
+"""A hidden y axis spanning the plot height (0 to 1), overlaid on the chart's own: span
+shading is drawn as bars on it."""
+
+
 def add_spans(fig: go.Figure, spans: pd.DataFrame) -> go.Figure:
-    """Shade spans on the time axis, one legend entry per reason with its count."""
+    """Shade spans on the time axis, one legend entry per reason with its count.
+
+    Each reason is one bar trace on a hidden full-height axis, a bar per span (centred
+    on it, as wide as it): hundreds of spans cost one trace. Layout shapes
+    (``add_vrect``) would be validated one by one and take seconds for a year of
+    flagged buckets.
+    """
     for reason, group in spans.groupby("reason", sort=False):
         colour = MUTED if reason == NOT_STEADY else SIGNAL
-        for row in group.itertuples(index=False):
-            fig.add_vrect(
-                x0=row.start,
-                x1=row.end,
-                fillcolor=_alpha(colour, 0.14 if reason == NOT_STEADY else 0.18),
-                line_width=0,
-                layer="below",
-            )
+        start = pd.DatetimeIndex(group["start"])
+        end = pd.DatetimeIndex(group["end"])
         fig.add_trace(
-            go.Scatter(
-                x=[None],
-                y=[None],
-                mode="markers",
-                marker={"symbol": "square", "size": 12, "color": _alpha(colour, 0.35)},
+            go.Bar(
+                x=start + (end - start) / 2,
+                y=np.ones(len(group)),
+                width=(end - start).total_seconds().to_numpy() * 1000.0,  # ms on a date axis
+                base=0,
+                yaxis=SHADE_AXIS,
+                marker={
+                    "color": _alpha(colour, 0.14 if reason == NOT_STEADY else 0.18),
+                    "line": {"width": 0},
+                },
                 name=f"{reason} ({len(group)})",
                 hoverinfo="skip",
             )
+        )
+    if len(spans):
+        fig.update_layout(
+            {
+                f"yaxis{SHADE_AXIS[1:]}": {
+                    "overlaying": "y",
+                    "range": [0, 1],
+                    "visible": False,
+                    "fixedrange": True,
+                }
+            }
         )
     return fig
 
@@ -437,11 +458,11 @@ def exergy_waterfall(
         barmode="overlay",
         hovermode="closest",
         bargap=0.35,
-        margin={"b": 80, "t": 72},
-        legend={"y": 1.04},
+        margin={"b": 80, "t": 96},
+        legend={"y": 1.14},
     )
     # room above the tallest bar for its value label
-    fig.update_yaxes(range=[min(0.0, float(steps["base"].min())), 1.12 * top if top > 0 else 1])
+    fig.update_yaxes(range=[min(0.0, float(steps["base"].min())), 1.15 * top if top > 0 else 1])
     fig.update_xaxes(
         categoryorder="array",
         categoryarray=[wrap(label) for label in steps["label"]],

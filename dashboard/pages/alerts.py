@@ -36,6 +36,7 @@ SEVERITY_OPTIONS = [{"label": s.capitalize(), "value": s} for s in ("critical", 
 SHOWN = (
     ("id", "Alert", "text"),
     ("unit", "Unit", "text"),
+    ("rule", "Rule", "text"),
     ("metric", "Quantity", "text"),
     ("severity", "Severity", "text"),
     ("status", "Status", "text"),
@@ -121,6 +122,7 @@ def rows(alerts: pd.DataFrame, zone_of: dict[str, str | None], clock: str) -> li
             {
                 "id": str(item.get("id", "")),
                 "unit": item.get("unit", ""),
+                "rule": item.get("rule", ""),
                 "metric": fmt.metric_label(str(item.get("metric") or ""))
                 if item.get("metric")
                 else "",
@@ -129,6 +131,7 @@ def rows(alerts: pd.DataFrame, zone_of: dict[str, str | None], clock: str) -> li
                 "began": fmt.format_timestamp(item.get("began_at") or item.get("started_at"), zone),
                 "acknowledged": (
                     f"{fmt.format_timestamp(acked, zone)} by {item.get('acknowledged_by') or '?'}"
+                    + (f": {item['note']}" if item.get("note") else "")
                     if acked
                     else ""
                 ),
@@ -188,6 +191,7 @@ async def _zones(client: LostworkClient, units: pd.DataFrame) -> dict[str, str |
 @page_callback(
     Output(ACK_RESULT, "children"),
     Output(ACKED, "data"),
+    Output(NOTE_TEXT, "value"),
     Input(ACK, "n_clicks"),
     State(TABLE, "selected_rows"),
     State(TABLE, "data"),
@@ -196,14 +200,15 @@ async def _zones(client: LostworkClient, units: pd.DataFrame) -> dict[str, str |
     prevent_initial_call=True,
 )
 async def acknowledge(_clicks, selected, data, note, count, *, client: LostworkClient):
-    """Acknowledge the selected alert with the note; the list reloads afterwards."""
+    """Acknowledge the selected alert with the note; the list reloads and the note box
+    empties afterwards (a refusal, such as a second acknowledgement, keeps the note)."""
     if not selected or not data:
-        return "Select an alert first.", count
+        return "Select an alert first.", count, note
     if not (note or "").strip():
-        return "Write a note: what was done or decided.", count
+        return "Write a note: what was done or decided.", count, note
     alert = data[selected[0]]
     try:
         await client.acknowledge(alert["id"], note.strip())
     except ApiError as exc:
-        return cards.problem(exc, doing=f"acknowledge alert {alert['id']}"), count
-    return f"Alert {alert['id']} acknowledged.", (count or 0) + 1
+        return cards.problem(exc, doing=f"acknowledge alert {alert['id']}"), count, note
+    return f"Alert {alert['id']} acknowledged.", (count or 0) + 1, ""

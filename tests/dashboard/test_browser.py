@@ -4,7 +4,8 @@ One server process (``lostwork serve`` on a temporary SQLite database prepared a
 ``lostwork demo`` does: the demo plant and a key; the embedded worker running) is fed two days of one-minute
 readings through ``POST /api/v1/readings/columnar``; the pipeline computes the results;
 one browser session then walks the dashboard: overview, a unit, its range, the unit
-system, the second-law view, an upload with a bad row, alerts, baselines. Nothing on the
+system, the second-law view, an upload with a bad row, an alert (a threshold rule made
+through the API fires on the data) acknowledged with a note, baselines. Nothing on the
 network path is mocked. Any browser console error fails the step it happened in.
 Screenshots go to ``test-artifacts/`` (git-ignored).
 """
@@ -43,6 +44,18 @@ DAYS = 2
 END = pd.Timestamp("2026-12-01T00:00Z")
 START = END - pd.Timedelta(days=DAYS)
 STEP_TIMEOUT_MS = 20_000
+
+
+RULE = {
+    "name": "boiler-1-efficiency-low",
+    "unit": "boiler-1",
+    "kind": "threshold",
+    "metric": "eta_1",
+    "below": 0.885,
+    "for": "10 min",
+    "severity": "warning",
+}
+"""Fires on the last day's fouling (eta_1 about 0.90 before, falling to about 0.875)."""
 
 
 @dataclass
@@ -152,6 +165,8 @@ def server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Server]:
     srv = Server(f"http://127.0.0.1:{port}", key, process)
     try:
         _wait(lambda: httpx.get(srv.base + "/api/v1/health", timeout=2).status_code == 200, 60)
+        rule = httpx.post(srv.base + "/api/v1/rules", json=RULE, headers=srv.headers, timeout=30)
+        assert rule.status_code == 201, rule.text
         pushed = httpx.post(
             srv.base + "/api/v1/readings/columnar",
             json=_readings(),
@@ -244,6 +259,7 @@ def test_overview_shows_every_unit_with_the_apis_values(server, browser):
     eta_1 = server.get("/api/v1/units/boiler-1/latest")["values"]["eta_1"]
     assert f"{100 * eta_1:.1f}" in boiler.split("\t")
     assert any(t.startswith("CHP block") for t in texts)
+    assert boiler.split("\t")[-1] == "1"  # the open alert of the fouling boiler
     footer = _text(page, "#shell-footer")
     assert "monitors and does not control" in footer and "licensed practice" in footer
     browser.shot("overview")
@@ -287,9 +303,13 @@ def test_second_law_view_closes_the_account(server, browser):
     page = browser.page
     page.goto(server.base + "/second-law?unit=boiler-1")
     page.wait_for_selector("#second-law-waterfall .barlayer .trace")
-    page.wait_for_selector("#second-law-table td >> text=Fuel exergy")
-    first = page.locator("#second-law-table tbody tr:has(td)").nth(0).inner_text().split("\t")
-    assert first[0] == "Fuel exergy" and first[-1] == "100.0"
+    page.wait_for_selector("#second-law-table td >> text=Exergy supplied (fuel and air)")
+    rows = page.locator("#second-law-table tbody tr:has(td)")
+    cells = [rows.nth(i).inner_text().split("\t") for i in range(rows.count())]
+    assert cells[0][0] == "Exergy supplied (fuel and air)" and cells[0][-1] == "100.0"
+    assert cells[1][:2] == ["Water and steam exergy gain", "product"]
+    # the shares of the outflows add up to the input (the account closes)
+    assert sum(float(c[-1]) for c in cells[1:]) == pytest.approx(100.0, abs=0.3)
     assert page.locator("#second-law-waterfall .ytitle").text_content() == "Exergy flow [MW]"
     browser.shot("second-law")
     browser.assert_no_console_errors()
@@ -320,16 +340,21 @@ def test_upload_with_a_bad_row_shows_where(server, browser, tmp_path):
 def test_acknowledge_an_alert(server, browser):
     page = browser.page
     page.goto(server.base + "/alerts")
-    page.wait_for_selector("#alerts-empty .lw-empty, #alerts-table td")
+    page.wait_for_selector("#alerts-table td >> text=boiler-1-efficiency-low")
+    row = page.locator("#alerts-table tbody tr:has(td)").nth(0)
+    assert "firing" in row.inner_text() and "warning" in row.inner_text()
     browser.shot("alerts")
-    browser.assert_no_console_errors()
-    if page.locator("#alerts-empty .lw-empty").count():
-        assert "No alerts on this server yet" in _text(page, "#alerts-empty")
-        pytest.skip("alerts (issue 6) are not on this server yet; the page shows its empty state")
-    page.locator("#alerts-table input[type=radio]").first.check()
-    page.fill("#alerts-note-text", "checked on site: burner re-tuned")
+    row.locator("input[type=radio]").check()
+    page.fill("#alerts-note-text", "soot blowers run; watching the stack temperature")
     page.click("#alerts-ack")
     page.wait_for_selector("#alerts-ack-result >> text=acknowledged")
+    page.wait_for_selector("#alerts-table td >> text=by e2e: soot blowers run")
+    alert = server.get("/api/v1/alerts", unit="boiler-1")["alerts"][0]
+    assert (alert["acknowledged_by"], alert["note"]) == (
+        "e2e",
+        "soot blowers run; watching the stack temperature",
+    )
+    browser.shot("alerts-acknowledged")
     browser.assert_no_console_errors()
 
 

@@ -103,9 +103,31 @@ def test_spans_are_shaded_with_a_counted_legend_entry():
     fig = figures.trend_figure(_frame([1, 2, 3, 4, 5, 6]), name="x", unit="MW", x_title="t")
     spans = figures.flag_spans(pd.Series([0, 2, 0, 2, 2, 0], index=T, dtype=float), 600)
     figures.add_spans(fig, spans)
-    rects = [s for s in fig.layout.shapes if s.type == "rect"]
-    assert [(pd.Timestamp(r.x0), pd.Timestamp(r.x1)) for r in rects] == [(T[1], T[2]), (T[3], T[5])]
-    assert fig.data[-1].name == "Negative entropy generation (2)"
+    shade = fig.data[-1]
+    assert shade.name == "Negative entropy generation (2)"
+    # one full-height bar per span on the hidden axis: centred on it, as wide as it
+    assert shade.yaxis == "y9" and fig.layout.yaxis9.range == (0, 1)
+    assert fig.layout.yaxis9.visible is False
+    assert [pd.Timestamp(x) for x in shade.x] == [T[1] + pd.Timedelta(minutes=5), T[4]]
+    assert list(shade.width) == [600_000.0, 1_200_000.0]
+    assert list(shade.y) == [1.0, 1.0] and shade.base == 0
+
+
+def test_many_spans_are_cheap():
+    # a year at chart resolution with a flag in every other bucket: 1,000 spans
+    index = pd.date_range("2026-01-01", periods=2000, freq="263min", tz="UTC")
+    flags = pd.Series(np.tile([2.0, 0.0], 1000), index=index)
+    spans = figures.flag_spans(flags)
+    fig = figures.trend_figure(
+        pd.DataFrame({"mean": 1.0, "min": 0.9, "max": 1.1}, index=index),
+        name="x",
+        unit="%",
+        x_title="t",
+    )
+    figures.add_spans(fig, spans)
+    assert len(spans) == 1000
+    assert len(fig.data) == 4  # band (2), line, one shading trace: not 1,000 shapes
+    assert not fig.layout.shapes
 
 
 def test_waterfall_closes_on_the_product():

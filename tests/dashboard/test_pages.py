@@ -147,8 +147,8 @@ def test_unit_draw_without_baseline_says_so_and_shades_flags():
     assert drift.layout.annotations[0].text == "No baseline fitted yet for this quantity."
     assert main.layout.yaxis.title.text == "First-law efficiency (HHV) [%]"
     assert main.layout.xaxis.title.text == "Time (Europe/Vienna, local)"
-    assert len([s for s in main.layout.shapes if s.type == "rect"]) == 1
-    assert "Negative entropy generation (1)" in [t.name for t in main.data]
+    shade = next(t for t in main.data if t.name == "Negative entropy generation (1)")
+    assert len(shade.x) == 1
     # resolution follows the chart width: two points per pixel
     _, _, kwargs = next(c for c in client.calls if c[1].endswith("/results"))
     assert kwargs["params"]["max_points"] == 1600
@@ -286,6 +286,7 @@ ALERTS = [
         "began_at": "2026-11-29T20:00:00Z",
         "acknowledged_at": "2026-11-29T21:00:00Z",
         "acknowledged_by": "shift lead",
+        "note": "meter swapped",
         "message": "stale",
     },
 ]
@@ -299,7 +300,7 @@ def test_alerts_listed_with_plant_times():
     assert [r["id"] for r in data] == ["7", "8"]
     assert data[0]["began"] == "2026-11-30 21:00 CET"
     assert data[0]["metric"] == "First-law efficiency (HHV)"
-    assert data[1]["acknowledged"] == "2026-11-29 22:00 CET by shift lead"
+    assert data[1]["acknowledged"] == "2026-11-29 22:00 CET by shift lead: meter swapped"
     assert [o["value"] for o in options] == ["boiler-1", "chp"]
     firing, *_ = run(
         alerts.load("firing", None, None, 0, SI, client=fakes.FakeClient(alerts=ALERTS))
@@ -313,15 +314,29 @@ def test_acknowledge_needs_a_selection_and_a_note_then_sends_it():
     assert run(alerts.acknowledge(1, [], rows, "x", 0, client=client)) == (
         "Select an alert first.",
         0,
+        "x",
     )
     assert run(alerts.acknowledge(1, [0], rows, "  ", 0, client=client)) == (
         "Write a note: what was done or decided.",
         0,
+        "  ",
     )
-    message, count = run(alerts.acknowledge(1, [1], rows, " valve re-seated ", 0, client=client))
-    assert (message, count) == ("Alert 8 acknowledged.", 1)
+    result = run(alerts.acknowledge(1, [1], rows, " valve re-seated ", 0, client=client))
+    assert result == ("Alert 8 acknowledged.", 1, "")
     assert client.calls[-1][:2] == ("POST", "/alerts/8/acknowledge")
     assert client.calls[-1][2]["json"] == {"note": "valve re-seated"}
+
+
+def test_a_refused_acknowledgement_keeps_the_note():
+    class Refusing(fakes.FakeClient):
+        async def acknowledge(self, alert_id, note):
+            raise ApiError(409, "Conflict", f"alert {alert_id} is already acknowledged")
+
+    message, count, note = run(
+        alerts.acknowledge(1, [0], [{"id": "7"}], "again", 3, client=Refusing(alerts=ALERTS))
+    )
+    assert "alert 7 is already acknowledged" in text_of(message)
+    assert (count, note) == (3, "again")
 
 
 # -- uploads -----------------------------------------------------------------------------

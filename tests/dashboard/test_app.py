@@ -64,3 +64,26 @@ def test_theme_css_declares_the_palette_of_the_figures():
 @pytest.mark.parametrize(("colour", "alpha", "text"), [("#1f7a74", 0.18, "rgba(31,122,116,0.18)")])
 def test_with_alpha(colour, alpha, text):
     assert palette.with_alpha(colour, alpha) == text
+
+
+def test_standalone_dashboard_reads_a_remote_api_with_the_given_or_environment_key(monkeypatch):
+    app = create_dash(api_base_url="http://plant-server:8000/", api_key="given")
+    client = app.lostwork_client
+    assert client.base_url == "http://plant-server:8000"
+    assert client._headers()["Authorization"] == "Bearer given"
+    monkeypatch.setenv("LOSTWORK_DASHBOARD_API_KEY", "from-env")
+    fallback = create_dash(api_base_url="http://plant-server:8000").lostwork_client
+    assert fallback._headers()["Authorization"] == "Bearer from-env"
+    # its own FastAPI server answers the page paths
+    with TestClient(app.server) as http:
+        assert http.get("/units/boiler-1").status_code == 200
+        assert http.get("/api/v1/units").status_code == 404
+
+
+def test_command_line_needs_the_api_url(capsys):
+    from dashboard.__main__ import main
+
+    with pytest.raises(SystemExit) as caught:
+        main([])
+    assert caught.value.code == 2
+    assert "the following arguments are required: --api" in capsys.readouterr().err

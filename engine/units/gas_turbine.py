@@ -250,7 +250,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         "1",
         ENERGY_BALANCE_TOLERANCE,
         description=(
-            "Largest |energy_balance_error| before the balance is flagged open (only "
+            "Largest absolute energy_balance_error before the balance is flagged open (only "
             "checkable with air_mass_flow bound). Default 0.02, our choice."
         ),
         minimum=0.0,

@@ -275,7 +275,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         "1",
         ENERGY_BALANCE_TOLERANCE,
         description=(
-            "Largest |energy_balance_error| before the balance is flagged open (only "
+            "Largest absolute energy_balance_error before the balance is flagged open (only "
             "checkable with gas_flow bound). Default 0.03, our choice."
         ),
         minimum=0.0,

@@ -590,3 +590,18 @@ def test_docstring_examples():
     result = doctest.testmod(gas_turbine_module)
     assert result.attempted == 9
     assert result.failed == 0
+
+
+def test_a_dead_state_per_row_is_the_same_as_row_by_row():
+    # The pipeline's ambient tag gives one T0 per interval.
+    t0 = np.array([278.15, 288.15, 298.15])
+    rows = pd.DataFrame([_row()] * 3)
+    together = gas_turbine_performance(
+        rows, {}, ModelContext(dead_state(t0, np.full(3, P0)), NATURAL_GAS)
+    )
+    for i, t in enumerate(t0):
+        alone = _run(_row(), t0=float(t)).iloc[0]
+        pd.testing.assert_series_equal(together.iloc[i], alone, check_names=False, rtol=1e-12)
+    # Exergy depends on T0, the first law does not.
+    assert together["eta_1"].nunique() == 1
+    assert together["exhaust_exergy_w"].is_monotonic_decreasing

@@ -812,6 +812,7 @@ KIND = UnitKind(
     port_groups=(LEVEL_GROUP,),
     text_parameters=TEXT_PARAMETERS,
     fuel_roles=("duct_fuel_mass_flow", "duct_fuel_volume_flow"),
+    load_result="heat_recovered_w",
     description=(
         "Heat-recovery steam generator behind a gas turbine, one to four pressure levels "
         "(a reheater as a level), optional duct firing: heat recovered, effectiveness, "

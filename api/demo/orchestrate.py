@@ -1,0 +1,359 @@
+"""``lostwork demo``: from an empty database to a running plant story in one command.
+
+Steps, each printed with its duration:
+
+1. apply the demo plant file (units, tags, alert rules; idempotent);
+2. create an admin key (printed) and an ingest key for the simulator;
+3. start a webhook receiver on 127.0.0.1 that verifies and prints what arrives, and
+   subscribe it (alerts raised while history is computed are delivered once the server
+   runs) — when the webhooks domain is installed;
+4. backfill ``days`` of history through the ingest service in this process (the same
+   validation, conversion and queueing as ``POST /api/v1/readings/columnar``, without
+   HTTP: the server is not up yet);
+5. compute it with the pipeline worker in this process, showing progress (or, with
+   ``progressive``, leave it to the server's embedded worker and serve at once);
+6. fit baselines on the clean reference period — a seam: the baselines service does not
+   exist in this build yet (see :func:`fit_baselines`);
+7. serve the API and dashboard, with the live simulator sending a sample every
+   ``step_s`` through the REST API, until Ctrl-C stops everything.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+import logging
+import signal
+import threading
+import time
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+import httpx
+import pandas as pd
+import typer
+from sqlalchemy.orm import Session, sessionmaker
+
+from api.core.config import Settings
+from api.demo import PLANT_FILE, PLANT_SLUG
+from api.demo.faults import Fault, clean_period_s, default_schedule
+from api.demo.runner import backfill, live
+from api.demo.simulator import Simulator, aligned_start
+from api.demo.sinks import HttpSink, ServiceSink
+
+log = logging.getLogger("lostwork.demo")
+
+RECEIVER_PORT = 9000
+DEMO_SUBSCRIPTION = "lostwork demo receiver"
+
+
+def _echo(text: str) -> None:
+    typer.echo(text)
+
+
+def _utc(t_ms: int) -> str:
+    return f"{pd.Timestamp(t_ms, unit='ms', tz='UTC'):%Y-%m-%d %H:%M}Z"
+
+
+@dataclass
+class DemoPlan:
+    """What a demo run does; the defaults are ``make demo``'s."""
+
+    days: float = 60.0
+    seed: int = 7
+    speed: float = 1.0
+    step_s: float = 60.0
+    progressive: bool = False
+    serve: bool = True
+    port: int | None = None
+    receiver_port: int = RECEIVER_PORT
+
+
+def apply_demo_plant(session_factory: sessionmaker[Session], default_interval_s: int) -> Any:
+    from api.plants import service
+    from api.plants.fileformat import load_yaml
+
+    with session_factory() as session:
+        return service.apply_plant(
+            session=session,
+            document=load_yaml(PLANT_FILE.read_text(encoding="utf-8")),
+            default_interval_s=default_interval_s,
+        )
+
+
+def create_keys(session_factory: sessionmaker[Session]) -> tuple[str, str]:
+    """(admin key, ingest key), plaintext; shown once."""
+    from api.auth import service
+
+    with session_factory() as session:
+        _, admin = service.create_key(session=session, name="demo admin", scopes=["admin"])
+        _, ingest = service.create_key(session=session, name="demo simulator", scopes=["ingest"])
+    return admin, ingest
+
+
+class DemoReceiver:
+    """The webhook receiver of :mod:`api.webhooks.receiver` in a thread, printing events."""
+
+    def __init__(self, port: int, secret: str) -> None:
+        from api.webhooks.receiver import Receiver, describe
+
+        def on_event(msg_id: str, payload: dict) -> None:
+            _echo(f"  [webhook] {payload.get('occurred_at', '')}  {describe(payload)}")
+
+        def on_reject(reason: str) -> None:
+            _echo(f"  [webhook] rejected a request: {reason}")
+
+        try:
+            self.server = Receiver(("127.0.0.1", port), [secret], on_event, on_reject)
+        except OSError:  # the port is taken: any free one will do
+            self.server = Receiver(("127.0.0.1", 0), [secret], on_event, on_reject)
+        self.url = f"http://127.0.0.1:{self.server.server_address[1]}/"
+        self.thread = threading.Thread(
+            target=self.server.serve_forever, kwargs={"poll_interval": 0.2}, daemon=True
+        )
+
+    def start(self) -> None:
+        self.thread.start()
+
+    def stop(self) -> None:
+        self.server.shutdown()
+        self.server.server_close()
+
+
+def subscribe_receiver(
+    session_factory: sessionmaker[Session], settings: Settings, url: str, secret: str
+) -> int:
+    """Replace the demo's earlier subscriptions by one to ``url``; returns its id."""
+    from sqlalchemy import select
+
+    from api.webhooks import service
+    from api.webhooks.models import WebhookSubscription
+    from api.webhooks.schemas import SubscriptionCreate
+
+    with session_factory() as session:
+        old = session.scalars(
+            select(WebhookSubscription).where(WebhookSubscription.description == DEMO_SUBSCRIPTION)
+        ).all()
+        for subscription in old:
+            service.delete_subscription(session=session, subscription_id=subscription.id)
+        created = service.create_subscription(
+            session=session,
+            body=SubscriptionCreate(url=url, secret=secret, description=DEMO_SUBSCRIPTION),
+            allow_list=settings.webhook_allow_list,
+        )
+        return created.id
+
+
+def compute_backlog(
+    session_factory: sessionmaker[Session],
+    stop: threading.Event,
+    progress: Callable[[int], None] | None = None,
+) -> int:
+    """Run the pipeline worker here until the queue is empty; returns chunks computed."""
+    from api.pipeline import worker
+
+    done = 0
+
+    def after_chunk(_claim: Any, _start: int, _end: int) -> None:
+        nonlocal done
+        done += 1
+        if progress is not None:
+            progress(done)
+
+    worker.run_once(session_factory, after_chunk=after_chunk, should_stop=stop.is_set)
+    return done
+
+
+def fit_baselines(session_factory: sessionmaker[Session], start_ms: int, end_ms: int) -> str:
+    """Fit and activate baselines on the clean reference period.
+
+    A seam: issue 5's baselines service (``api.baselines``) is not part of this build.
+    When it lands, this is where the demo fits ``eta_1`` of the boilers and the section
+    efficiencies of the turbines on [start, end) and activates them; the plant file's
+    drift and CUSUM rules then fire on the faults.
+    """
+    if importlib.util.find_spec("api.baselines.service") is None:
+        return (
+            f"baselines: not available in this build; the clean reference period is "
+            f"{_utc(start_ms)} to {_utc(end_ms)}"
+        )
+    return "baselines: the baselines service is installed but the demo does not call it yet"
+
+
+def alert_summary(session_factory: sessionmaker[Session]) -> list[str]:
+    if importlib.util.find_spec("api.alerts.service") is None:
+        return []
+    from api.alerts import service
+
+    with session_factory() as session:
+        alerts, total = service.list_alerts(session=session, plant=PLANT_SLUG, limit=50)
+        lines = [f"alerts raised on the history: {total}"]
+        for alert in reversed(alerts):
+            began = alert.began_at.strftime("%Y-%m-%d %H:%M")
+            lines.append(
+                f"  {began}Z  {alert.severity:8} {alert.status:8} {alert.rule_name}: {alert.message}"
+            )
+    return lines
+
+
+def run_demo(settings: Settings, plan: DemoPlan) -> None:
+    """Prepare the demo (database already migrated) and, unless ``plan.serve`` is false,
+    serve it until Ctrl-C."""
+    from api.core.db import create_db_engine, make_session_factory
+
+    port = plan.port or settings.port
+    url = f"http://{settings.host}:{port}"
+    webhooks = importlib.util.find_spec("api.webhooks.receiver") is not None
+    if webhooks and "127.0.0.1" not in settings.webhook_allow_list:
+        # The demo's receiver listens on loopback, which the address policy refuses
+        # unless allow-listed; the allowance is for this process only.
+        settings = settings.model_copy(
+            update={"webhook_allow_list": [*settings.webhook_allow_list, "127.0.0.1"]}
+        )
+    engine = create_db_engine(settings.database_url)
+    factory = make_session_factory(engine)
+    stop = threading.Event()
+    previous = {}
+    if threading.current_thread() is threading.main_thread():
+
+        def graceful(_signum: int, _frame: object) -> None:
+            stop.set()
+
+        previous[signal.SIGINT] = signal.signal(signal.SIGINT, graceful)
+    receiver = None
+    try:
+        began = time.perf_counter()
+        report = apply_demo_plant(factory, settings.interval_seconds)
+        counts = {
+            what: sum(item.startswith(what + " ") for item in report.created + report.updated)
+            for what in ("unit", "tag", "rule", "fuel")
+        }
+        changed = (
+            "up to date"
+            if not report.changed
+            else ", ".join(f"{n} {what}(s)" for what, n in counts.items() if n)
+            + " created or updated"
+        )
+        _echo(f"plant {report.plant}: {changed} ({time.perf_counter() - began:.1f} s)")
+        admin_key, ingest_key = create_keys(factory)
+
+        if webhooks:
+            from api.webhooks.signing import generate_secret
+
+            secret = generate_secret()
+            receiver = DemoReceiver(plan.receiver_port, secret)
+            receiver.start()
+            subscribe_receiver(factory, settings, receiver.url, secret)
+            _echo(f"webhook receiver: {receiver.url} (events print here as [webhook])")
+        else:
+            _echo("webhooks: not available in this build; no receiver started")
+
+        now_ms = int(time.time() * 1000)
+        probe = Simulator(start_ms=now_ms, faults=[])
+        start_ms = aligned_start(now_ms, plan.days, probe.interval_s)
+        end_ms = start_ms + int(round(plan.days * 86_400_000))
+        schedule: list[Fault] = default_schedule(plan.days)
+        sim = Simulator(start_ms=start_ms, faults=schedule, seed=plan.seed)
+        _echo(f"history: {plan.days:g} days from {_utc(start_ms)}, with these faults:")
+        for fault in schedule:
+            _echo(f"  {_utc(start_ms + int(fault.start_s * 1000))}  {fault.describe()}")
+
+        began = time.perf_counter()
+        filled = backfill(sim, ServiceSink(factory, sim.slug), start_ms, end_ms)
+        _echo(
+            f"backfill: {filled.totals.received:,} readings stored in {filled.seconds:.1f} s "
+            f"(rejected {filled.totals.rejected})"
+        )
+        if not plan.progressive and not stop.is_set():
+            began = time.perf_counter()
+            last = [began]
+
+            def progress(done: int) -> None:
+                if time.perf_counter() - last[0] > 10.0:
+                    last[0] = time.perf_counter()
+                    _echo(
+                        f"  computing: {done} unit-day chunks in {last[0] - began:.0f} s "
+                        f"(about {len(sim.unit_fuel) * plan.days:.0f} in all) ..."
+                    )
+
+            chunks = compute_backlog(factory, stop, progress)
+            _echo(f"compute: {chunks} unit-day chunks in {time.perf_counter() - began:.1f} s")
+            clean = clean_period_s(plan.days)
+            _echo(
+                fit_baselines(
+                    factory, start_ms + int(clean[0] * 1000), start_ms + int(clean[1] * 1000)
+                )
+            )
+            for line in alert_summary(factory):
+                _echo(line)
+        if stop.is_set():
+            _echo("stopped before serving")
+            return
+
+        _echo("")
+        _echo(f"  lostwork demo: {url}   (API docs: {url}/docs)")
+        _echo(f"  admin API key (shown once): {admin_key}")
+        _echo(f"  try:  curl -H 'Authorization: Bearer {admin_key}' {url}/api/v1/units")
+        _echo("  lostwork monitors; it does not control and is no safety system.")
+        _echo("")
+        if not plan.serve:
+            return
+        if plan.progressive:
+            _echo("results are computed in the background by the server's worker")
+        _serve(settings, port, sim, ingest_key, end_ms, plan, stop)
+    finally:
+        if receiver is not None:
+            receiver.stop()
+        engine.dispose()
+        for signum, handler in previous.items():
+            signal.signal(signum, handler)
+
+
+def _serve(
+    settings: Settings,
+    port: int,
+    sim: Simulator,
+    ingest_key: str,
+    from_ms: int,
+    plan: DemoPlan,
+    stop: threading.Event,
+) -> None:
+    """Run the server in this thread and the live simulator beside it until Ctrl-C."""
+    import uvicorn
+
+    from api.main import create_app
+
+    url = f"http://{settings.host}:{port}"
+
+    def simulate_live() -> None:
+        with httpx.Client(base_url=url, timeout=60.0) as client:
+            for _ in range(120):  # the server is starting; a minute at most
+                if stop.is_set():
+                    return
+                try:
+                    if client.get("/api/v1/health").status_code == 200:
+                        break
+                except httpx.TransportError:
+                    pass
+                stop.wait(0.5)
+            _echo(f"live: a sample every {plan.step_s:g} s at speed {plan.speed:g}")
+            live(
+                sim,
+                HttpSink(client, sim.slug, ingest_key),
+                from_ms,
+                step_s=plan.step_s,
+                speed=plan.speed,
+                stop=stop,
+            )
+
+    feeder = threading.Thread(target=simulate_live, name="demo-live", daemon=True)
+    server = uvicorn.Server(
+        uvicorn.Config(create_app(settings), host=settings.host, port=port, log_level="warning")
+    )
+    feeder.start()
+    try:
+        server.run()  # installs its own Ctrl-C handling and returns on it
+    finally:
+        stop.set()
+        feeder.join(timeout=10)
+        _echo("demo stopped")

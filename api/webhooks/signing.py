@@ -39,8 +39,10 @@ def secret_key(secret: str) -> bytes:
     """The HMAC key of a ``whsec_`` secret; ``ValueError`` saying what is wrong."""
     if not secret.startswith(SECRET_PREFIX):
         raise ValueError(f"a webhook secret starts with {SECRET_PREFIX!r}")
+    text = secret[len(SECRET_PREFIX) :]
     try:
-        key = base64.b64decode(secret[len(SECRET_PREFIX) :], validate=True)
+        # Padding may be left off (the reference implementation accepts that too).
+        key = base64.b64decode(text + "=" * (-len(text) % 4), validate=True)
     except (binascii.Error, ValueError):
         raise ValueError("the part after 'whsec_' is not valid base64") from None
     if not MIN_SECRET_BYTES <= len(key) <= MAX_SECRET_BYTES:

@@ -27,10 +27,16 @@ app.add_typer(db_app, name="db")
 app.add_typer(plant_app, name="plant")
 app.add_typer(keys_app, name="keys")
 
-COMMAND_MODULES = ("api.pipeline.commands", "api.alerts.commands", "api.webhooks.commands")
+COMMAND_MODULES = (
+    "api.pipeline.commands",
+    "api.alerts.commands",
+    "api.webhooks.commands",
+    "api.demo.commands",
+)
 
 
 def _session_factory(settings: Settings):  # type: ignore[no-untyped-def]
+    import api.models  # noqa: F401  (every table mapped, so foreign keys resolve)
     from api.core.db import create_db_engine, make_session_factory
 
     return make_session_factory(create_db_engine(settings.database_url))
@@ -274,26 +280,29 @@ def _setup_logging(settings: Settings) -> None:
 def demo(
     port: Annotated[int | None, typer.Option(help="Default: LOSTWORK_PORT or 8000")] = None,
     no_serve: Annotated[bool, typer.Option(help="Prepare only; do not start the server")] = False,
+    days: Annotated[float, typer.Option(help="Days of simulated history to backfill")] = 60.0,
+    speed: Annotated[float, typer.Option(help="Live speed-up of the simulator")] = 1.0,
+    seed: Annotated[int, typer.Option(help="Simulator seed (weather, noise)")] = 7,
+    progressive: Annotated[
+        bool, typer.Option(help="Serve at once; the server computes the history meanwhile")
+    ] = False,
 ) -> None:
-    """Migrate the embedded database, load the example plant, print a key, and serve."""
-    from api.auth import service as auth_service
-    from api.examples import DEMO_PLANT
+    """Migrate, load the demo plant, backfill and compute its history, print a key, and
+    serve with live simulated readings (api/demo)."""
+    from api.demo.orchestrate import DemoPlan, run_demo
 
     settings = get_settings()
     _setup_logging(settings)
     _prepare_database(settings)
-    report = _apply_file(settings, DEMO_PLANT)
-    _print_apply(report)
-    with _session_factory(settings)() as session:
-        _, plaintext = auth_service.create_key(session=session, name="demo admin", scopes=["admin"])
-    url = settings.public_base_url if port is None else f"http://{settings.host}:{port}"
-    typer.echo("")
-    typer.echo(f"  lostwork demo: {url}   (API docs: {url}/docs)")
-    typer.echo(f"  admin API key (shown once): {plaintext}")
-    typer.echo(f"  try:  curl -H 'Authorization: Bearer {plaintext}' {url}/api/v1/units")
-    typer.echo("")
-    if not no_serve:
-        serve(host=None, port=port)
+    plan = DemoPlan(
+        days=days,
+        seed=seed,
+        speed=speed,
+        progressive=progressive,
+        serve=not no_serve,
+        port=port,
+    )
+    run_demo(settings, plan)
 
 
 def _register_domain_commands() -> None:

@@ -10,6 +10,7 @@ empty state rather than an error.
 
 from __future__ import annotations
 
+import asyncio
 import datetime as dt
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
@@ -117,6 +118,7 @@ class LostworkClient:
         self._api_key = api_key
         self._transport = transport
         self._timeout = timeout
+        self._pool: tuple[asyncio.AbstractEventLoop, httpx.AsyncClient] | None = None
 
     # -- plumbing -------------------------------------------------------------------
 
@@ -127,6 +129,22 @@ class LostworkClient:
             headers["Authorization"] = f"Bearer {key}"
         return headers
 
+    def _http(self) -> httpx.AsyncClient:
+        """One pooled httpx client per event loop (keep-alive across a page's requests).
+
+        The server runs one loop, so in production this is one client for the life of
+        the process; a new loop (each ``asyncio.run`` in tests or scripts) gets a new one.
+        """
+        loop = asyncio.get_running_loop()
+        if self._pool is None or self._pool[0] is not loop:
+            self._pool = (
+                loop,
+                httpx.AsyncClient(
+                    base_url=self.base_url, transport=self._transport, timeout=self._timeout
+                ),
+            )
+        return self._pool[1]
+
     async def _call(
         self,
         method: str,
@@ -135,16 +153,12 @@ class LostworkClient:
         optional: bool = False,
         **kwargs: Any,
     ) -> Any:
-        async with httpx.AsyncClient(
-            base_url=self.base_url,
-            transport=self._transport,
-            timeout=self._timeout,
-            headers=self._headers(),
-        ) as http:
-            try:
-                response = await http.request(method, API + path, **kwargs)
-            except httpx.HTTPError as exc:
-                raise ApiError(0, "API unreachable", f"{type(exc).__name__}: {exc}") from exc
+        try:
+            response = await self._http().request(
+                method, API + path, headers=self._headers(), **kwargs
+            )
+        except httpx.HTTPError as exc:
+            raise ApiError(0, "API unreachable", f"{type(exc).__name__}: {exc}") from exc
         return self._decode(response, optional=optional)
 
     @staticmethod
@@ -339,24 +353,51 @@ def parse_results(body: Mapping[str, Any]) -> Results:
 
 
 def baseline_metrics(metric: str) -> dict[str, str]:
-    """Names of the result columns the baseline adds for ``metric`` (issue 5):
-    ``expected``, its band ``low`` / ``high``, ``drift``, and the tabular CUSUM's
-    ``cusum_upper`` / ``cusum_lower``."""
+    """Names of the result columns an active baseline adds for ``metric`` (issue 5,
+    ``api.baselines.metrics``): ``expected``, its prediction band ``low`` / ``high``,
+    ``drift`` (actual - expected), ``drift_rel``, ``extrapolated`` (1 where the baseline
+    gives no expected value), ``ewma`` and the tabular CUSUM's ``cusum_upper`` /
+    ``cusum_lower`` (both in residual standard deviations) and ``cusum_alarm``."""
     return {
         "expected": f"expected_{metric}",
-        "low": f"expected_low_{metric}",
-        "high": f"expected_high_{metric}",
+        "low": f"expected_lower_{metric}",
+        "high": f"expected_upper_{metric}",
         "drift": f"drift_{metric}",
+        "drift_rel": f"drift_rel_{metric}",
+        "extrapolated": f"extrapolated_{metric}",
+        "ewma": f"ewma_{metric}",
         "cusum_upper": f"cusum_upper_{metric}",
         "cusum_lower": f"cusum_lower_{metric}",
+        "cusum_alarm": f"cusum_alarm_{metric}",
     }
+
+
+BASELINE_PREFIXES = (
+    "expected_",
+    "expected_lower_",
+    "expected_upper_",
+    "drift_",
+    "drift_rel_",
+    "extrapolated_",
+    "ewma_",
+    "cusum_upper_",
+    "cusum_lower_",
+    "cusum_alarm_",
+)
+"""Prefixes of the per-metric baseline columns, to tell them from a kind's own results."""
+
+
+def is_baseline_column(name: str, base_metrics) -> bool:
+    """Whether ``name`` is a per-metric baseline column of one of ``base_metrics``."""
+    bases = set(base_metrics)
+    return any(name.startswith(p) and name[len(p) :] in bases for p in BASELINE_PREFIXES)
 
 
 FLAGS_METRIC = "flags"
 """Result column of :class:`engine.checks.Flag` bits (bucket value: OR of intervals)."""
 STEADY_METRIC = "steady"
 """Result column, 1 when the interval was steady, 0 when not (issue 5)."""
-HEADROOM_METRIC = "headroom_w"
+HEADROOM_METRIC = "headroom_recoverable_w"
 """Result column: recoverable exergy against the unit's demonstrated best (issue 5). [W]"""
 HEADROOM_COST_METRIC = "headroom_cost_per_h"
 """Result column: the headroom valued at the plant's fuel price (issue 5). [currency/h]"""

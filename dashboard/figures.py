@@ -32,6 +32,10 @@ CATEGORY_COLOURS = {
 
 NOT_STEADY = "Not steady"
 """Reason text of spans where the unit was not in steady state."""
+SPAN_COLUMNS = ["start", "end", "reason", "kind"]
+SPAN_COLOURS = {"flag": SIGNAL, "state": MUTED, "baseline": PLUM}
+"""Shading colour per kind of span: flag bits in the alert colour, operating states
+(not steady) in grey, the baseline's own (outside its range) in its colour."""
 
 
 def axis_title(name: str, unit: str) -> str:
@@ -56,6 +60,22 @@ def _style(fig: go.Figure, *, x_title: str, y_title: str, height: int = 320) -> 
     return fig
 
 
+def _x(index) -> np.ndarray:
+    """Times for plotly as a datetime64 array of wall-clock times.
+
+    plotly.js shows any time as the wall-clock time it is written in, so a zone-aware
+    index (already converted to the viewer's clock) loses nothing by dropping its
+    offset -- and a datetime64 array is copied and serialised as numbers, where an
+    array of Timestamp objects is deep-copied object by object (most of the cost of a
+    year-long chart).
+    """
+    if isinstance(index, pd.DatetimeIndex):
+        if index.tz is not None:
+            index = index.tz_localize(None)
+        return index.to_numpy()
+    return np.asarray(index)
+
+
 def _hover(unit: str) -> str:
     suffix = "" if unit in ("", "–") else f" {unit}"
     return "%{y:,.4~g}" + suffix
@@ -65,7 +85,7 @@ def _band(fig: go.Figure, low: pd.Series, high: pd.Series, colour: str, name: st
     """A filled band between two series (two traces, the second filled to the first)."""
     fig.add_trace(
         go.Scatter(
-            x=low.index,
+            x=_x(low.index),
             y=low.to_numpy(),
             mode="lines",
             line={"width": 0},
@@ -76,7 +96,7 @@ def _band(fig: go.Figure, low: pd.Series, high: pd.Series, colour: str, name: st
     )
     fig.add_trace(
         go.Scatter(
-            x=high.index,
+            x=_x(high.index),
             y=high.to_numpy(),
             mode="lines",
             line={"width": 0},
@@ -105,7 +125,7 @@ def trend_figure(series: pd.DataFrame, *, name: str, unit: str, x_title: str) ->
     _band(fig, series["min"], series["max"], TIDE, "min–max per point")
     fig.add_trace(
         go.Scatter(
-            x=series.index,
+            x=_x(series.index),
             y=series["mean"].to_numpy(),
             mode="lines",
             line={"color": TIDE, "width": 2},
@@ -146,7 +166,7 @@ def actual_expected_figure(
     if expected is not None:
         fig.add_trace(
             go.Scatter(
-                x=expected.index,
+                x=_x(expected.index),
                 y=expected.to_numpy(),
                 mode="lines",
                 line={"color": PLUM, "width": 2, "dash": "dash"},
@@ -168,7 +188,7 @@ def drift_figure(
     colours = np.where(values < 0, COPPER, TIDE)
     fig = go.Figure(
         go.Bar(
-            x=drift.index,
+            x=_x(drift.index),
             y=values,
             marker={"color": colours, "line": {"width": 0}},
             name=name,
@@ -197,7 +217,7 @@ def cusum_figure(
         if series is not None:
             fig.add_trace(
                 go.Scatter(
-                    x=series.index,
+                    x=_x(series.index),
                     y=series.to_numpy(),
                     mode="lines",
                     line={"color": colour, "width": 2},
@@ -225,11 +245,11 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     return list(zip(edges[::2], edges[1::2], strict=True))
 
 
-def _spans(mask: np.ndarray, index: pd.DatetimeIndex, step: pd.Timedelta, reason: str):
+def _spans(mask: np.ndarray, index: pd.DatetimeIndex, step: pd.Timedelta, reason: str, kind: str):
     rows = []
     for i, j in _runs(mask):
         end = index[j] if j < len(index) else index[j - 1] + step
-        rows.append({"start": index[i], "end": end, "reason": reason})
+        rows.append({"start": index[i], "end": end, "reason": reason, "kind": kind})
     return rows
 
 
@@ -284,8 +304,9 @@ def flag_spans(
     Returns
     -------
     DataFrame
-        ``start``, ``end`` (exclusive) and ``reason`` (the flag's label), one row per
-        run of consecutive flagged points per bit, ordered by bit then time.
+        ``start``, ``end`` (exclusive), ``reason`` (the flag's label) and ``kind``
+        (``"flag"``), one row per run of consecutive flagged points per bit, ordered by
+        bit then time.
     """
     index = pd.DatetimeIndex(flags.index)
     values = flags.to_numpy(dtype=float)
@@ -298,17 +319,32 @@ def flag_spans(
     extra = [(1 << n, f"Flag bit {n}") for n in range(63) if unnamed & (1 << n)]
     rows = []
     for value, label in sorted(named + extra):
-        rows += _spans((bits & value) != 0, index, step, label)
-    return pd.DataFrame(rows, columns=["start", "end", "reason"])
+        rows += _spans((bits & value) != 0, index, step, label, "flag")
+    return pd.DataFrame(rows, columns=SPAN_COLUMNS)
 
 
-def steady_spans(steady: pd.Series, bucket_seconds: float | None = None) -> pd.DataFrame:
-    """Spans where the unit was mostly not steady (bucket mean of the 0/1 flag < 0.5)."""
-    index = pd.DatetimeIndex(steady.index)
-    values = steady.to_numpy(dtype=float)
-    mask = np.isfinite(values) & (values < 0.5)
-    rows = _spans(mask, index, _step(index, bucket_seconds), NOT_STEADY)
-    return pd.DataFrame(rows, columns=["start", "end", "reason"])
+def state_spans(
+    state: pd.Series,
+    bucket_seconds: float | None = None,
+    *,
+    reason: str = NOT_STEADY,
+    kind: str = "state",
+    when: float = 0.0,
+) -> pd.DataFrame:
+    """Spans where a 0/1 state mostly held the value ``when`` (the bucket mean within 0.5
+    of it): not steady (``steady`` = 0), outside the baseline's range
+    (``extrapolated_M`` = 1), ...
+
+    Returns
+    -------
+    DataFrame
+        ``start``, ``end``, ``reason``, ``kind``, as :func:`flag_spans`.
+    """
+    index = pd.DatetimeIndex(state.index)
+    values = state.to_numpy(dtype=float)
+    mask = np.isfinite(values) & (np.abs(values - when) < 0.5)
+    rows = _spans(mask, index, _step(index, bucket_seconds), reason, kind)
+    return pd.DataFrame(rows, columns=SPAN_COLUMNS)
 
 
 SHADE_AXIS = "y9"
@@ -324,13 +360,14 @@ def add_spans(fig: go.Figure, spans: pd.DataFrame) -> go.Figure:
     (``add_vrect``) would be validated one by one and take seconds for a year of
     flagged buckets.
     """
-    for reason, group in spans.groupby("reason", sort=False):
-        colour = MUTED if reason == NOT_STEADY else SIGNAL
+    for _reason, group in spans.groupby("reason", sort=False):
+        reason = str(_reason)
+        colour = SPAN_COLOURS.get(group["kind"].iloc[0], MUTED)
         start = pd.DatetimeIndex(group["start"])
         end = pd.DatetimeIndex(group["end"])
         fig.add_trace(
             go.Bar(
-                x=start + (end - start) / 2,
+                x=_x(start + (end - start) / 2),
                 y=np.ones(len(group)),
                 width=(end - start).total_seconds().to_numpy() * 1000.0,  # ms on a date axis
                 base=0,

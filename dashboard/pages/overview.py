@@ -12,7 +12,13 @@ from dash import Input, Output, dcc, html
 from dash.dash_table.Format import Format, Scheme
 
 from dashboard import formatting as fmt
-from dashboard.client import ApiError, LostworkClient, NotAvailable
+from dashboard.client import (
+    DRIFT_COST_METRIC,
+    HEADROOM_METRIC,
+    ApiError,
+    LostworkClient,
+    NotAvailable,
+)
 from dashboard.components import cards, prefs
 from dashboard.components.table import data_table
 from dashboard.registry import page_callback
@@ -30,7 +36,7 @@ REFRESH_MS = 60_000
 OPEN_STATUS = "firing"
 """Alert status counted as open (lifecycle firing -> resolved, DESIGN section 7)."""
 DRIFT_METRIC = "drift_eta_1"
-NUMERIC = ("eta_1", "eta_2", DRIFT_METRIC, "headroom_w", "drift_cost_per_h")
+NUMERIC = ("eta_1", "eta_2", DRIFT_METRIC, HEADROOM_METRIC, DRIFT_COST_METRIC)
 
 
 def layout(**_kwargs: Any) -> html.Div:
@@ -100,7 +106,7 @@ def _unit_of(latest: dict[str, Any], metric: str, default: str) -> str:
     return (latest.get("units") or {}).get(metric) or default
 
 
-_DEFAULT_UNITS = {"eta_1": "1", "eta_2": "1", DRIFT_METRIC: "1", "headroom_w": "W"}
+_DEFAULT_UNITS = {"eta_1": "1", "eta_2": "1", DRIFT_METRIC: "1", HEADROOM_METRIC: "W"}
 
 
 def rows(snapshot: Snapshot, choice: prefs.Prefs, now=None) -> tuple[list[dict], list[dict]]:
@@ -124,9 +130,9 @@ def rows(snapshot: Snapshot, choice: prefs.Prefs, now=None) -> tuple[list[dict],
             "last": fmt.format_timestamp(latest.get("t"), zone) if latest else "no results yet",
             "age_min": _minutes(fmt.age_seconds(latest.get("t"), now)) if latest else None,
             "alerts": None if snapshot.open_alerts is None else snapshot.open_alerts.get(slug, 0),
-            "cost": _number(values.get("drift_cost_per_h")),
+            "cost": _number(values.get(DRIFT_COST_METRIC)),
         }
-        for metric in ("eta_1", "eta_2", DRIFT_METRIC, "headroom_w"):
+        for metric in ("eta_1", "eta_2", DRIFT_METRIC, HEADROOM_METRIC):
             si_unit = _unit_of(latest, metric, _DEFAULT_UNITS[metric])
             shown, label = fmt.to_display(
                 _number(values.get(metric), nan=True), metric, si_unit, choice.system
@@ -160,7 +166,7 @@ def _columns(
         numeric("eta_1", f"η₁ [{pct}]", 1),
         numeric("eta_2", f"η₂ [{labels.get('eta_2', '%')}]", 1),
         numeric(DRIFT_METRIC, f"η₁ drift [{labels.get(DRIFT_METRIC, '% points')}]", 2),
-        numeric("headroom_w", f"Headroom [{labels.get('headroom_w', 'MW')}]", 2),
+        numeric(HEADROOM_METRIC, f"Headroom [{labels.get(HEADROOM_METRIC, 'MW')}]", 2),
         numeric("cost", f"Cost of drift [{currency}/h]", 0),
         {"id": "last", "name": "Latest result", "type": "text"},
         numeric("age_min", "Age [min]", 0),

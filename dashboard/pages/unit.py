@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import asyncio
+from dataclasses import dataclass
 from typing import Any
 
 import dash
@@ -16,8 +17,10 @@ from dashboard.client import (
     STEADY_METRIC,
     ApiError,
     LostworkClient,
+    NotAvailable,
     Results,
     baseline_metrics,
+    is_baseline_column,
 )
 from dashboard.components import cards, prefs
 from dashboard.registry import clientside, page_callback
@@ -48,6 +51,7 @@ PAIR = "unit-baseline-charts"
 
 DEFAULT_METRIC = "eta_1"
 HIDDEN = {"display": "none"}
+EXTRAPOLATED = "Outside the baseline's range"
 HIDDEN_METRICS = {FLAGS_METRIC, STEADY_METRIC}
 GRAPH_CONFIG = {
     "displaylogo": False,
@@ -162,11 +166,13 @@ async def load(slug: str | None, *, client: LostworkClient):
 
 
 def metric_options(context: UnitContext) -> list[dict[str, str]]:
-    """Dropdown options: the kind's result columns, efficiencies first."""
+    """Dropdown options: what the unit computes, efficiencies first; not the flags and not
+    the per-metric baseline columns (they are drawn with their metric)."""
+    names = _names(context)
     options = [
         {"label": fmt.metric_label(r["name"], r.get("label")), "value": r["name"]}
         for r in context.results
-        if r["name"] not in HIDDEN_METRICS
+        if r["name"] not in HIDDEN_METRICS and not is_baseline_column(r["name"], names)
     ]
     options.sort(
         key=lambda o: (
@@ -205,24 +211,46 @@ def _window(context: UnitContext, preset: str | None, window: dict | None):
     return timerange.window(preset, context.end())
 
 
-async def _fetch(client, context, metric, start, end, points) -> tuple[Results, Results | None]:
-    """The metric with its flags, and separately what the baseline adds (None without one)."""
-    own = [metric] + [m for m in (FLAGS_METRIC, STEADY_METRIC) if m in _names(context)]
+@dataclass(frozen=True)
+class Fetched:
+    """What the unit page draws from: the metric with its flags, what the active baseline
+    adds (None without one) and the CUSUM decision interval h of that baseline."""
+
+    own: Results
+    base: Results | None = None
+    decision_interval: float | None = None
+
+
+async def _fetch(client, context, metric, start, end, points) -> Fetched:
+    names = _names(context)
+    own = [metric] + [m for m in (FLAGS_METRIC, STEADY_METRIC) if m in names]
+    wanted = [m for m in baseline_metrics(metric).values() if m in names]
 
     async def baseline() -> Results | None:
-        try:
-            found = await client.results(
-                context.slug, start, end, list(baseline_metrics(metric).values()), max_points=points
-            )
-        except ApiError as exc:
-            if 400 <= exc.status < 500:  # the server does not know these columns (yet)
-                return None
-            raise
+        if not wanted:  # a server without baselines declares none of these columns
+            return None
+        found = await client.results(context.slug, start, end, wanted, max_points=points)
         return found if any(found.has(m) for m in found.metrics) else None
 
-    return await asyncio.gather(
-        client.results(context.slug, start, end, own, max_points=points), baseline()
+    async def decision_interval() -> float | None:
+        if not wanted:
+            return None
+        try:
+            versions = await client.baselines(context.slug)
+        except NotAvailable:
+            return None
+        active = [
+            b for b in versions.to_dict("records") if b.get("active") and b.get("metric") == metric
+        ]
+        chart = active[0].get("chart") if active else None
+        return float(chart["h"]) if isinstance(chart, dict) and chart.get("h") else None
+
+    results, base, h = await asyncio.gather(
+        client.results(context.slug, start, end, own, max_points=points),
+        baseline(),
+        decision_interval(),
     )
+    return Fetched(results, base, h)
 
 
 def _names(context: UnitContext) -> set[str]:
@@ -251,24 +279,24 @@ async def draw(context_data, metric, preset, window, choice_data, width, *, clie
         return blank, blank, blank, None, None, HIDDEN
     start, end = _window(context, preset, window)
     try:
-        own, base = await _fetch(client, context, metric, start, end, timerange.max_points(width))
+        fetched = await _fetch(client, context, metric, start, end, timerange.max_points(width))
     except ApiError as exc:
         blank = figures.empty_figure("No data.")
         return blank, blank, blank, None, cards.problem(exc, doing="load results"), HIDDEN
-    return render(context, metric, own, base, prefs.read(choice_data), start, end)
+    return render(context, metric, fetched, prefs.read(choice_data), start, end)
 
 
 def render(
     context: UnitContext,
     metric: str,
-    own: Results,
-    base: Results | None,
+    fetched: Fetched,
     choice: prefs.Prefs,
     start: pd.Timestamp,
     end: pd.Timestamp,
 ):
     """The three figures, the caption, the note and whether the baseline charts show,
     from fetched results (pure)."""
+    own, base = fetched.own, fetched.base
     zone = fmt.zone_name(choice.clock, context.time_zone)
     x_title = fmt.time_axis_title(zone)
     name = fmt.metric_label(metric, own.labels.get(metric))
@@ -283,7 +311,7 @@ def render(
         return blank, blank, blank, None, note, HIDDEN
     actual, unit = fmt.frame_to_display(own.series(metric), metric, si_unit, choice.system)
     actual.index = fmt.to_zone(actual.index, zone)
-    spans = _spans(own, zone)
+    spans = _spans(own, base, metric, zone)
     expected = low = high = None
     names = baseline_metrics(metric)
     if base is not None and base.has(names["expected"]):
@@ -303,7 +331,7 @@ def render(
     )
     main.update_layout(uirevision=f"{context.slug}-{metric}-{start.isoformat()}")
     drift, cusum, note = _baseline_figures(
-        base, names, metric, name, si_unit, choice.system, zone, x_title
+        fetched.decision_interval, base, names, metric, name, si_unit, choice.system, zone, x_title
     )
     caption = (
         f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)} · "
@@ -320,17 +348,26 @@ def _shown(results: Results, column: str, metric: str, si_unit: str, system: str
     return values
 
 
-def _spans(own: Results, zone: str) -> pd.DataFrame:
+def _spans(own: Results, base: Results | None, metric: str, zone: str) -> pd.DataFrame:
     parts = []
+    extrapolated = baseline_metrics(metric)["extrapolated"]
+    if base is not None and base.has(extrapolated):
+        parts.append(
+            figures.state_spans(
+                base.mean[extrapolated],
+                base.bucket_seconds,
+                reason=EXTRAPOLATED,
+                kind="baseline",
+                when=1.0,
+            )
+        )
     if own.has(FLAGS_METRIC):
         # A bucket's flags are the OR of its intervals; the server returns it as "max".
         parts.append(figures.flag_spans(own.high[FLAGS_METRIC], own.bucket_seconds))
     if own.has(STEADY_METRIC):
-        parts.append(figures.steady_spans(own.mean[STEADY_METRIC], own.bucket_seconds))
+        parts.append(figures.state_spans(own.mean[STEADY_METRIC], own.bucket_seconds))
     spans = (
-        pd.concat(parts, ignore_index=True)
-        if parts
-        else pd.DataFrame(columns=["start", "end", "reason"])
+        pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=figures.SPAN_COLUMNS)
     )
     for column in ("start", "end"):
         if len(spans):
@@ -338,13 +375,13 @@ def _spans(own: Results, zone: str) -> pd.DataFrame:
     return spans
 
 
-def _baseline_figures(base, names, metric, name, si_unit, system, zone, x_title):
+def _baseline_figures(decision_interval, base, names, metric, name, si_unit, system, zone, x_title):
     if base is None or not base.has(names["drift"]):
         message = "No baseline fitted yet for this quantity."
         note = cards.empty_state(
             "No baseline fitted yet",
             f"Expected {fmt.lower_first(name)}, drift and CUSUM appear once a baseline is active "
-            "for this unit (fit one on the Baselines page, once the server offers them).",
+            "for this quantity (fit one on the Baselines page).",
         )
         return figures.empty_figure(message), figures.empty_figure(message), note
     drift_values, drift_unit = fmt.to_display(
@@ -354,11 +391,13 @@ def _baseline_figures(base, names, metric, name, si_unit, system, zone, x_title)
     drift = figures.drift_figure(drift_values, name="Drift", unit=drift_unit, x_title=x_title)
     upper = _cusum(base, names["cusum_upper"], zone)
     lower = _cusum(base, names["cusum_lower"], zone)
-    cusum_unit = fmt.unit_label(base.units.get(names["cusum_upper"]) or "1")
     if upper is None and lower is None:
         cusum = figures.empty_figure("The baseline reports no CUSUM.")
     else:
-        cusum = figures.cusum_figure(upper, lower, unit=cusum_unit, x_title=x_title)
+        # The CUSUM runs on drift in units of the baseline's residual standard deviation.
+        cusum = figures.cusum_figure(
+            upper, lower, unit="σ", x_title=x_title, decision_interval=decision_interval
+        )
     return drift, cusum, None
 
 

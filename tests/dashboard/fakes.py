@@ -13,7 +13,7 @@ from typing import Any
 
 import pandas as pd
 
-from dashboard.client import ApiError, LostworkClient, NotAvailable
+from dashboard.client import BASELINE_PREFIXES, ApiError, LostworkClient, NotAvailable
 from engine.checks import Flag
 
 PLANT = {
@@ -53,6 +53,17 @@ UNITS = [
     },
 ]
 LATEST_T = pd.Timestamp("2026-11-30T23:59:00Z")
+ACTIVE_BASELINE = {
+    "version": 1,
+    "unit": "boiler-1",
+    "metric": "eta_1",
+    "active": True,
+    "start": "2025-11-01T00:00:00Z",
+    "end": "2025-12-01T00:00:00Z",
+    "model": "linear",
+    "statistics": {"n": 30000, "r2": 0.8, "cv_rmse": 0.01, "nmbe": 0.0, "meets_guideline_14": True},
+    "chart": {"k": 0.5, "h": 12.0, "ewma_lambda": 0.1, "ewma_width": 2.814},
+}
 
 # Period means of the boiler's exergy account (W): fuel exergy in, water exergy out,
 # T0 Sgen destroyed, and the total destroyed-and-lost 1.2 MW above it (exhaust losses).
@@ -75,12 +86,16 @@ def value(metric: str, minutes: float) -> float:
         "lost_work_w": LOST_WORK_W,
         "sgen_w_per_k": LOST_WORK_W / 288.15,
         "expected_eta_1": 0.915,
-        "expected_low_eta_1": 0.905,
-        "expected_high_eta_1": 0.925,
+        "extrapolated_eta_1": 0.0,
+        "drift_rel_eta_1": -0.005,
+        "ewma_eta_1": -0.5,
+        "cusum_alarm_eta_1": 0.0,
+        "expected_lower_eta_1": 0.905,
+        "expected_upper_eta_1": 0.925,
         "drift_eta_1": -0.005 - 0.01 * day,
         "cusum_upper_eta_1": 0.0,
         "cusum_lower_eta_1": 2.0 + day,
-        "headroom_w": 1.5e6,
+        "headroom_recoverable_w": 1.5e6,
         "headroom_cost_per_h": 51.0,
         "drift_cost_per_h": 12.5,
     }
@@ -125,22 +140,28 @@ class FakeClient(LostworkClient):
             found = next((u for u in UNITS if u["slug"] == parts[1]), None)
             if found is None:
                 raise ApiError(404, "Not Found", f"no unit {parts[1]!r}")
-            return {
-                "unit": parts[1],
-                "kind": found["kind"],
-                "metrics": [
-                    {"metric": r["name"], "unit": r["unit"], "label": r["description"]}
-                    for r in found["results"]
-                ],
-            }
+            declared = [
+                {"metric": r["name"], "unit": r["unit"], "label": r["description"]}
+                for r in found["results"]
+            ]
+            # A server with the baselines stage declares its columns for every result;
+            # here for eta_1, enough for the pages.
+            if self.baseline:
+                declared += [
+                    {"metric": prefix + "eta_1", "unit": "1", "label": prefix}
+                    for prefix in BASELINE_PREFIXES
+                ] + [{"metric": "headroom_recoverable_w", "unit": "W", "label": "Headroom"}]
+            return {"unit": parts[1], "kind": found["kind"], "metrics": declared}
         if parts[0] == "units" and parts[-1] == "latest":
             return self._latest(parts[1])
         if parts[0] == "units" and parts[-1] == "results":
             return self._results(parts[1], kwargs["params"])
         if parts[0] == "units" and parts[-1] == "baselines":
-            if self.baseline_items is None:
-                raise NotAvailable(404, "Not available on this server")
-            return {"baselines": self.baseline_items}
+            if self.baseline_items is not None:
+                return {"baselines": self.baseline_items}
+            if self.baseline:
+                return {"baselines": [ACTIVE_BASELINE]}
+            raise NotAvailable(404, "Not available on this server")
         if path == "/alerts":
             if self.alert_items is None:
                 raise NotAvailable(404, "Not available on this server")
@@ -158,14 +179,14 @@ class FakeClient(LostworkClient):
 
     def _latest(self, slug: str) -> dict[str, Any]:
         minutes = LATEST_T.value / 60e9
-        names = ["eta_1", "eta_2", "headroom_w", "drift_cost_per_h", "drift_eta_1"]
+        names = ["eta_1", "eta_2", "headroom_recoverable_w", "drift_cost_per_h", "drift_eta_1"]
         if slug != "boiler-1":
             names = ["eta_1", "eta_2"]
         return {
             "t": LATEST_T.isoformat().replace("+00:00", "Z"),
             "values": {m: value(m, minutes) for m in names},
             "units": {
-                m: ("W" if m.endswith("_w") else "EUR/h" if "cost" in m else "1") for m in names
+                m: ("W" if m.endswith("_w") else "1/h" if "cost" in m else "1") for m in names
             },
         }
 
@@ -179,7 +200,11 @@ class FakeClient(LostworkClient):
         times = [start + i * bucket for i in range(count)]
         series = []
         for metric in params["metrics"].split(","):
-            if metric.startswith(("expected_", "drift_eta", "cusum_")) and not self.baseline:
+            if (
+                metric.startswith(BASELINE_PREFIXES)
+                and metric.endswith("eta_1")
+                and not self.baseline
+            ):
                 continue
             if metric == "flags":
                 flags = [0.0] * count

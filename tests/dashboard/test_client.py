@@ -42,10 +42,27 @@ def test_a_wrong_key_is_refused_with_the_servers_words(live_api):
     assert caught.value.status == 401
 
 
-def test_absent_optional_endpoints_are_not_available(live_api):
-    # Baselines (issue 5) have no route on this server yet: 404 means "not available".
+def test_baselines_of_a_unit_without_any(live_api):
+    assert run(live_api.client.baselines("boiler-1")).empty
+
+
+def test_absent_optional_endpoints_are_not_available():
+    # A server without the baselines or alerts routes answers 404 problem details.
+    def answer(request: httpx.Request) -> httpx.Response:
+        return httpx.Response(
+            404,
+            json={"type": "about:blank", "title": "Not Found", "status": 404},
+            headers={"content-type": "application/problem+json"},
+        )
+
+    client = LostworkClient("http://x", "k", transport=httpx.MockTransport(answer))
     with pytest.raises(NotAvailable):
-        run(live_api.client.baselines("boiler-1"))
+        run(client.baselines("boiler-1"))
+    with pytest.raises(NotAvailable):
+        run(client.alerts(status="firing"))
+    with pytest.raises(ApiError) as caught:  # a required route missing is an error
+        run(client.units())
+    assert not isinstance(caught.value, NotAvailable) and caught.value.status == 404
 
 
 def test_alerts_of_a_quiet_plant_and_a_refused_acknowledgement(live_api):

@@ -32,6 +32,8 @@ def test_trend_axes_state_unit_and_clock():
     assert fig.data[2].hovertemplate == "%{y:,.4~g} %"
     assert list(fig.data[0].y) == [89, 90, 91, 90, 89, 88]
     assert list(fig.data[1].y) == [91, 92, 93, 92, 91, 90]
+    assert fig.data[2].x.dtype.kind == "M"  # datetime64, not an array of objects
+    assert pd.Timestamp(fig.data[2].x[0]) == pd.Timestamp("2026-03-01 00:00")
 
 
 def test_dimensionless_axis_says_dash():
@@ -63,9 +65,14 @@ def test_flags_decode_bit_by_bit_into_spans():
     flags = pd.Series([0, 2, 2, 6, np.nan, 4], index=T, dtype=float)
     spans = figures.flag_spans(flags, bucket_seconds=600)
     assert spans.to_dict("records") == [
-        {"start": T[1], "end": T[4], "reason": "Negative entropy generation"},
-        {"start": T[3], "end": T[4], "reason": "Efficiency above one"},
-        {"start": T[5], "end": T[5] + pd.Timedelta(minutes=10), "reason": "Efficiency above one"},
+        {"start": T[1], "end": T[4], "reason": "Negative entropy generation", "kind": "flag"},
+        {"start": T[3], "end": T[4], "reason": "Efficiency above one", "kind": "flag"},
+        {
+            "start": T[5],
+            "end": T[5] + pd.Timedelta(minutes=10),
+            "reason": "Efficiency above one",
+            "kind": "flag",
+        },
     ]
 
 
@@ -73,9 +80,9 @@ def test_pipeline_data_bits_and_unknown_bits_are_decoded_too():
     # api.pipeline.quality.DataFlag: THIN_DATA = 1 << 16; bit 40 is named by nobody.
     flags = pd.Series([0, 65536, 65536 | (1 << 40), 0, 0, 0], index=T, dtype=float)
     spans = figures.flag_spans(flags, bucket_seconds=600)
-    assert spans.to_dict("records") == [
-        {"start": T[1], "end": T[3], "reason": "Thin data"},
-        {"start": T[2], "end": T[3], "reason": "Flag bit 40"},
+    assert [(r["start"], r["end"], r["reason"]) for r in spans.to_dict("records")] == [
+        (T[1], T[3], "Thin data"),
+        (T[2], T[3], "Flag bit 40"),
     ]
 
 
@@ -87,16 +94,25 @@ def test_every_flag_bit_of_the_engine_has_a_label():
 
 def test_no_flags_no_spans():
     spans = figures.flag_spans(pd.Series([0.0] * 6, index=T))
-    assert spans.empty and list(spans.columns) == ["start", "end", "reason"]
+    assert spans.empty and list(spans.columns) == ["start", "end", "reason", "kind"]
 
 
 def test_unsteady_spans_from_bucket_means():
     steady = pd.Series([1.0, 0.2, 0.4, 1.0, 0.5, 0.0], index=T)
-    spans = figures.steady_spans(steady)  # spacing inferred: 10 min
-    assert spans.to_dict("records") == [
-        {"start": T[1], "end": T[3], "reason": figures.NOT_STEADY},
-        {"start": T[5], "end": T[5] + pd.Timedelta(minutes=10), "reason": figures.NOT_STEADY},
+    spans = figures.state_spans(steady)  # spacing inferred: 10 min
+    assert [(r["start"], r["end"], r["reason"], r["kind"]) for r in spans.to_dict("records")] == [
+        (T[1], T[3], figures.NOT_STEADY, "state"),
+        (T[5], T[5] + pd.Timedelta(minutes=10), figures.NOT_STEADY, "state"),
     ]
+
+
+def test_extrapolated_spans_when_the_state_is_one():
+    extrapolated = pd.Series([0.0, 1.0, 0.9, 0.0, 0.0, 0.0], index=T)
+    spans = figures.state_spans(extrapolated, 600, reason="Outside", kind="baseline", when=1.0)
+    assert [(r["start"], r["end"]) for r in spans.to_dict("records")] == [(T[1], T[3])]
+    fig = figures.trend_figure(_frame([1, 2, 3, 4, 5, 6]), name="x", unit="%", x_title="t")
+    figures.add_spans(fig, spans)
+    assert fig.data[-1].marker.color == "rgba(109,74,126,0.18)"  # PLUM, the baseline's colour
 
 
 def test_spans_are_shaded_with_a_counted_legend_entry():
@@ -108,7 +124,9 @@ def test_spans_are_shaded_with_a_counted_legend_entry():
     # one full-height bar per span on the hidden axis: centred on it, as wide as it
     assert shade.yaxis == "y9" and fig.layout.yaxis9.range == (0, 1)
     assert fig.layout.yaxis9.visible is False
-    assert [pd.Timestamp(x) for x in shade.x] == [T[1] + pd.Timedelta(minutes=5), T[4]]
+    # plotly gets wall-clock times (datetime64), here those of UTC
+    wall = T.tz_localize(None)
+    assert [pd.Timestamp(x) for x in shade.x] == [wall[1] + pd.Timedelta(minutes=5), wall[4]]
     assert list(shade.width) == [600_000.0, 1_200_000.0]
     assert list(shade.y) == [1.0, 1.0] and shade.base == 0
 

@@ -66,12 +66,12 @@ def test_overview_rows_in_display_units_most_costly_first():
     boiler = data[0]
     minutes = fakes.LATEST_T.value / 60e9
     assert boiler["eta_1"] == pytest.approx(100 * fakes.value("eta_1", minutes))
-    assert boiler["headroom_w"] == pytest.approx(1.5)  # 1.5e6 W in MW
+    assert boiler["headroom_recoverable_w"] == pytest.approx(1.5)  # 1.5e6 W in MW
     assert boiler["cost"] == 12.5
     assert boiler["last"] == "2026-12-01 00:59 CET"  # 23:59 UTC in Vienna, winter
     headers = {c["id"]: c["name"] for c in columns}
     assert headers["eta_1"] == "η₁ [%]"
-    assert headers["headroom_w"] == "Headroom [MW]"
+    assert headers["headroom_recoverable_w"] == "Headroom [MW]"
     assert headers["cost"] == "Cost of drift [EUR/h]"
     assert "plant" not in headers  # one plant: named in the tiles instead
     assert "Tarnwick Board Mill CHP" in text_of(tiles)
@@ -83,9 +83,9 @@ def test_overview_rows_in_display_units_most_costly_first():
 def test_overview_in_us_units_and_utc():
     _, data, columns, _ = run(overview.refresh(US, None, client=fakes.FakeClient()))
     headers = {c["id"]: c["name"] for c in columns}
-    assert headers["headroom_w"] == "Headroom [MMBtu/h]"
+    assert headers["headroom_recoverable_w"] == "Headroom [MMBtu/h]"
     # 1.5 MW = 1.5e6 * 3600 / 1055.05585262 / 1e6 MMBtu/h (IT Btu, NIST SP 811 B.9)
-    assert data[0]["headroom_w"] == pytest.approx(1.5e6 * 3600 / 1055.05585262 / 1e6)
+    assert data[0]["headroom_recoverable_w"] == pytest.approx(1.5e6 * 3600 / 1055.05585262 / 1e6)
     assert data[0]["last"] == "2026-11-30 23:59 UTC"
 
 
@@ -149,6 +149,9 @@ def test_unit_draw_without_baseline_says_so_and_shades_flags():
     assert main.layout.xaxis.title.text == "Time (Europe/Vienna, local)"
     shade = next(t for t in main.data if t.name == "Negative entropy generation (1)")
     assert len(shade.x) == 1
+    actual = next(t for t in main.data if t.name == "First-law efficiency (HHV), actual")
+    # the window's first point, 2026-11-24 00:00 UTC, on the plant's clock (CET)
+    assert pd.Timestamp(actual.x[0]) == pd.Timestamp("2026-11-24 01:00")
     # resolution follows the chart width: two points per pixel
     _, _, kwargs = next(c for c in client.calls if c[1].endswith("/results"))
     assert kwargs["params"]["max_points"] == 1600
@@ -161,6 +164,17 @@ def test_unit_draw_with_baseline_shows_expected_drift_and_cusum():
     assert "First-law efficiency (HHV), expected" in [t.name for t in main.data]
     assert drift.layout.yaxis.title.text == "Drift [% points]"
     assert [t.name for t in cusum.data] == ["CUSUM, upper", "CUSUM, lower"]
+    # in residual standard deviations, with the active baseline's decision interval h
+    assert cusum.layout.yaxis.title.text == "CUSUM [σ]"
+    line = [s for s in cusum.layout.shapes if s.type == "line"][0]
+    assert (line.y0, line.y1) == (12.0, 12.0)
+
+
+def test_baseline_columns_are_drawn_with_their_metric_not_offered_on_their_own():
+    _, _, options, _, _ = run(unit.load("boiler-1", client=fakes.FakeClient(baseline=True)))
+    values = [o["value"] for o in options]
+    assert "eta_1" in values and "headroom_recoverable_w" in values
+    assert not [v for v in values if v.startswith(("expected_", "cusum_", "drift_eta"))]
 
 
 def test_unit_draw_in_us_units_and_utc_converts_the_hover_values():
@@ -169,9 +183,9 @@ def test_unit_draw_in_us_units_and_utc_converts_the_hover_values():
     assert main.layout.yaxis.title.text == "Heat absorbed [MMBtu/h]"
     assert main.layout.xaxis.title.text == "Time (UTC)"
     assert line.hovertemplate.endswith(" MMBtu/h")
-    first = pd.Timestamp(line.x[0])
-    minutes = first.tz_convert("UTC").value / 60e9 if first.tzinfo else None
-    assert str(first.tzinfo) == "UTC"
+    first = pd.Timestamp(line.x[0])  # a wall-clock time of the chosen clock, UTC here
+    assert first == pd.Timestamp("2026-11-24 00:00")
+    minutes = first.tz_localize("UTC").value / 60e9
     assert line.y[0] == pytest.approx(
         fakes.value("heat_absorbed_w", minutes) * 3600 / 1055.05585262 / 1e6
     )

@@ -2,6 +2,7 @@
 
 from api.alerts.models import Alert, AlertRule, AlertRuleState
 from api.auth.models import ApiKey
+from api.baselines.models import Baseline, ChartCheckpoint, DriftEvent
 from api.core.db import Base
 from api.pipeline.models import SpanState, WorkSpan
 from api.plants.models import Fuel, Plant, Tag, Unit, UnitBinding
@@ -22,6 +23,9 @@ __all__ = [
     "AlertRuleState",
     "ApiKey",
     "Base",
+    "Baseline",
+    "ChartCheckpoint",
+    "DriftEvent",
     "Fuel",
     "Plant",
     "Reading",

@@ -22,7 +22,12 @@ def build_router() -> APIRouter:
     router.include_router(uploads_router)
     router.include_router(keys_router)
     # Domains built alongside (results, alerts, ...) register here when present.
-    for module_name in ("api.results.views", "api.alerts.views", "api.webhooks.views"):
+    for module_name in (
+        "api.results.views",
+        "api.baselines.views",
+        "api.alerts.views",
+        "api.webhooks.views",
+    ):
         extra = _optional_router(module_name)
         if extra is not None:
             router.include_router(extra)

@@ -31,8 +31,8 @@ DRIFT_COST_METRIC = "drift_cost_per_h"
 
 _DERIVED_UNITS = {
     EXPECTED: None,  # the base metric's unit
-    "expected_low_": None,
-    "expected_high_": None,
+    "expected_lower_": None,
+    "expected_upper_": None,
     DRIFT_REL: "1",
     CUSUM_ALARM: "1",
     "cusum_upper_": "1",
@@ -76,7 +76,7 @@ def metric_unit(kind: str, metric: str) -> str | None:
     if metric in _UNIT_METRICS:
         return _UNIT_METRICS[metric]
     base = base_metrics(kind)
-    # Longest prefix first: drift_rel_ before drift_, expected_low_ before expected_.
+    # Longest prefix first: drift_rel_ before drift_, expected_lower_ before expected_.
     for prefix in sorted(_DERIVED_UNITS, key=len, reverse=True):
         if metric.startswith(prefix) and metric[len(prefix) :] in base:
             unit = _DERIVED_UNITS[prefix]

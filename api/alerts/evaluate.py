@@ -144,6 +144,7 @@ def evaluate_unit_results(
                     open_alert,
                     resolved_at=lifecycle.ms_to_datetime(event.at_ms),
                     value=event.value,
+                    t_ms=event.t_ms,
                     base_url=base_url,
                 ):
                     resolved += 1

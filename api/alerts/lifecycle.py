@@ -73,10 +73,12 @@ def describe(rule: AlertRule, unit: Unit, value: float | None, details: dict[str
 
 
 def _baseline_values(session: Session, unit_id: int, metric: str | None, t_ms: int) -> dict:
-    """expected / drift / drift_rel of ``metric`` and the unit's drift cost at ``t_ms``."""
+    """The value of ``metric`` itself, its expected / drift / drift_rel, and the unit's
+    drift cost at ``t_ms`` (None where not stored)."""
     names = {"cost_per_h": conventions.DRIFT_COST_METRIC}
     if metric:
         names.update(
+            actual=metric,
             expected=conventions.expected_metric(metric),
             drift=conventions.drift_metric(metric),
             drift_rel=conventions.drift_rel_metric(metric),
@@ -132,6 +134,17 @@ def _emit(
     )
 
 
+def _derived_source(kind: str, metric: str | None) -> str | None:
+    """The baseline result a drift or CUSUM rule reads; None for other kinds."""
+    if metric is None:
+        return None
+    if kind == RuleKind.DRIFT.value:
+        return conventions.drift_rel_metric(metric)
+    if kind == RuleKind.CUSUM.value:
+        return conventions.cusum_alarm_metric(metric)
+    return None
+
+
 def fire(
     session: Session,
     *,
@@ -145,9 +158,19 @@ def fire(
     details: dict[str, Any] | None = None,
     base_url: str | None = None,
 ) -> Alert:
-    """A new firing alert for ``rule`` and its ``alert.fired`` event."""
-    details = details or {}
+    """A new firing alert for ``rule`` and its ``alert.fired`` event.
+
+    ``value`` is what the rule read. For drift and CUSUM rules that is a baseline result
+    (``drift_rel_M``, ``cusum_alarm_M``): it goes to ``details["read"]``, and the alert's
+    value is the metric M itself at that interval, beside its expected value and drift.
+    """
+    details = dict(details or {})
     extra = _baseline_values(session, unit.id, rule.metric, t_ms) if t_ms is not None else {}
+    reading = value
+    source = _derived_source(rule.kind, rule.metric)
+    if source is not None:
+        details["read"] = {"metric": source, "value": reading}
+        value = extra.get("actual")
     alert = Alert(
         rule_id=rule.id,
         plant_id=plant.id,
@@ -157,7 +180,7 @@ def fire(
         metric=rule.metric,
         severity=rule.severity,
         status=AlertStatus.FIRING.value,
-        message=describe(rule, unit, value, details)[:500],
+        message=describe(rule, unit, reading, details)[:500],
         began_at=began_at,
         fired_at=fired_at,
         value=value,
@@ -181,16 +204,23 @@ def resolve(
     resolved_at: dt.datetime,
     value: float | None,
     reason: str | None = None,
+    t_ms: int | None = None,
     base_url: str | None = None,
 ) -> bool:
     """Resolve a firing alert and queue its ``alert.resolved`` event.
 
+    ``value`` is what the rule read at ``t_ms`` (for drift and CUSUM rules kept in
+    ``details["read_at_resolve"]``, the metric itself becoming ``resolved_value``).
     A conditional update: of two transactions resolving the same alert (the worker and a
     rule being deleted), one resolves it and queues the event; False for the other.
     """
     details = dict(alert.details or {})
     if reason:
         details["resolved_because"] = reason
+    source = _derived_source(alert.kind, alert.metric)
+    if source is not None and t_ms is not None:
+        details["read_at_resolve"] = {"metric": source, "value": value}
+        value = _baseline_values(session, alert.unit_id, alert.metric, t_ms).get("actual")
     done = session.execute(
         update(Alert)
         .where(Alert.id == alert.id, Alert.status == AlertStatus.FIRING.value)

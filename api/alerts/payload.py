@@ -13,7 +13,9 @@
       "unit": {"slug": "...", "name": "...", "kind": "boiler",
                "url": "<public_base_url>/units/<slug>"},     # the unit's dashboard page
       "metric": "eta_1",                     # null for stale rules
-      "value": 0.8123,                       # SI; at firing, or at resolution for resolved
+      "value": 0.8123,                       # SI: the metric's value when the alert fired
+                                             # (resolved: when it resolved); stale rules:
+                                             # age of the oldest silent tag [s]
       "value_unit": "1",                     # SI unit of value ("1": a fraction)
       "expected": null,                      # baseline expected value (null until baselines)
       "drift": null,                         # value - expected, unit of value
@@ -27,7 +29,12 @@
       "alert": {"id": 12, "status": "firing", "message": "...",
                 "fired_at": "...", "resolved_at": null,
                 "acknowledged_at": null, "acknowledged_by": null, "note": null},
-      "details": {}                          # kind-specific: stale tags, flags set
+      "details": {}                          # kind-specific: stale_tags (name -> newest
+                                             # reading), flags set, read (drift and CUSUM:
+                                             # the baseline result the rule read, e.g.
+                                             # {"metric": "drift_rel_eta_1", "value": -0.03}),
+                                             # resolved_because (rule deleted, changed,
+                                             # disabled)
     }
 
 Timestamps are RFC 3339 in UTC. Numbers are SI, as everywhere in the API.

@@ -127,9 +127,9 @@ def test_rule_problems_are_located(client, plant, admin) -> None:
     errors = {e["field"]: e["message"] for e in response.json()["errors"]}
     assert errors["side"] == "side: does not apply to a threshold rule"
     assert errors["above"] == "above: give exactly one of above, below"
-    assert errors["metric"].startswith(
-        "metric: unit 'boiler-a' (kind boiler) has no metric 'eta_9'; known: coverage, "
-    )
+    prefix = "metric: unit 'boiler-a' (kind boiler) has no metric 'eta_9'; known: "
+    assert errors["metric"].startswith(prefix)
+    assert {"eta_1", "eta_2", "flags"} <= set(errors["metric"][len(prefix) :].split(", "))
 
     hysteresis = client.post(
         RULES,
@@ -322,7 +322,13 @@ def test_drift_rule_reads_the_baseline_columns(client, plant, admin, session_fac
     # The run began at minute 1 and had lasted 2 min at the end of minute 2.
     assert payload["began_at"] == "2026-01-01T00:01:00Z"
     assert payload["occurred_at"] == "2026-01-01T00:03:00Z"
-    assert (payload["metric"], payload["value"], payload["value_unit"]) == ("eta_1", -0.03, "1")
+    # The alert's value is eta_1 itself; what the rule read is in details.
+    assert (payload["metric"], payload["value"], payload["value_unit"]) == (
+        "eta_1",
+        0.88 * (1 - 0.03),
+        "1",
+    )
+    assert payload["details"] == {"read": {"metric": "drift_rel_eta_1", "value": -0.03}}
     assert (payload["expected"], payload["drift_rel"], payload["cost_per_hour"]) == (
         0.88,
         -0.03,

@@ -287,6 +287,28 @@ class LostworkClient:
             "POST", f"/alerts/{alert_id}/acknowledge", json={"note": note}, optional=True
         )
 
+    async def fit_baseline(
+        self,
+        unit: str,
+        metric: str,
+        start: dt.datetime,
+        end: dt.datetime,
+        *,
+        note: str | None = None,
+    ) -> dict[str, Any]:
+        """Fit a new baseline version of ``metric`` on [start, end); returns it with its
+        fit statistics (needs an admin key)."""
+        body: dict[str, Any] = {"metric": metric, "start": rfc3339(start), "end": rfc3339(end)}
+        if note:
+            body["note"] = note
+        return await self._call("POST", f"/units/{unit}/baselines", json=body, optional=True)
+
+    async def activate_baseline(self, unit: str, version: int) -> dict[str, Any]:
+        """Make a version the active baseline of its metric (the server recomputes)."""
+        return await self._call(
+            "POST", f"/units/{unit}/baselines/{int(version)}/activate", json={}, optional=True
+        )
+
     async def baselines(self, unit: str) -> pd.DataFrame:
         """Baseline versions of a unit; raises :class:`NotAvailable` without issue 5."""
         body = await self._call("GET", f"/units/{unit}/baselines", optional=True)

@@ -156,6 +156,19 @@ class FakeClient(LostworkClient):
             return self._latest(parts[1])
         if parts[0] == "units" and parts[-1] == "results":
             return self._results(parts[1], kwargs["params"])
+        if parts[0] == "units" and parts[-1] == "baselines" and method == "POST":
+            body = kwargs["json"]
+            return {
+                **ACTIVE_BASELINE,
+                "version": 2,
+                "active": False,
+                "metric": body["metric"],
+                "start": body["start"],
+                "end": body["end"],
+                "counts": {"computed": 43200, "steady": 30000, "flagged": 12, "usable": 29988},
+            }
+        if parts[0] == "units" and parts[-1] == "activate":
+            return {**ACTIVE_BASELINE, "version": int(parts[3])}
         if parts[0] == "units" and parts[-1] == "baselines":
             if self.baseline_items is not None:
                 return {"baselines": self.baseline_items}

@@ -417,24 +417,32 @@ def test_upload_without_plant_or_with_garbage():
     assert not [c for c in client.calls if c[1] == "/uploads"]
 
 
-# -- baselines ---------------------------------------------------------------------------
+# -- baselines --------------------------------------------------------------------------
 
 
-def test_baselines_empty_state_until_the_server_has_them():
-    data, state, style = run(baselines.load("boiler-1", SI, client=fakes.FakeClient()))
+def _baseline_context(client):
+    return run(baselines.metric_choices("boiler-1", client=client))[0]
+
+
+def test_baselines_not_offered_by_the_server():
+    client = fakes.FakeClient()
+    data, _, state, style = run(baselines.load(_baseline_context(client), SI, 0, client=client))
     assert data == [] and style == {"display": "none"}
-    assert "No baseline fitted yet" in text_of(state)
+    assert "Baselines are not available on this server" in text_of(state)
 
 
-def test_baselines_rows_with_guideline_14_statistics():
+def test_no_baseline_fitted_yet():
+    client = fakes.FakeClient(baselines=[])
+    data, _, state, style = run(baselines.load(_baseline_context(client), SI, 0, client=client))
+    assert "No baseline fitted yet" in text_of(state) and style == {"display": "none"}
+
+
+def test_baseline_rows_with_guideline_14_statistics():
     items = [
+        {**fakes.ACTIVE_BASELINE, "version": 1, "active": False},
         {
+            **fakes.ACTIVE_BASELINE,
             "version": 2,
-            "metric": "eta_1",
-            "start": "2025-11-01",
-            "end": "2025-11-30",
-            "model": "linear in load",
-            "active": True,
             "statistics": {
                 "n": 4000,
                 "r2": 0.81,
@@ -442,12 +450,84 @@ def test_baselines_rows_with_guideline_14_statistics():
                 "nmbe": -0.001,
                 "meets_guideline_14": True,
             },
-        }
+        },
     ]
-    data, state, style = run(
-        baselines.load("boiler-1", SI, client=fakes.FakeClient(baselines=items))
+    client = fakes.FakeClient(baselines=items)
+    data, selected, state, style = run(
+        baselines.load(_baseline_context(client), SI, 0, client=client)
     )
-    assert state is None and style is None
+    assert state is None and style is None and selected == []
+    assert [r["version"] for r in data] == [2, 1]  # newest first
     assert data[0]["cv_rmse"] == pytest.approx(1.2)
     assert data[0]["nmbe"] == pytest.approx(-0.1)
     assert (data[0]["verdict"], data[0]["active"]) == ("meets", "active")
+    assert data[0]["period"] == "2025-11-01 01:00 CET to 2025-12-01 01:00 CET"
+
+
+def test_baseline_quantities_exclude_the_baseline_columns():
+    context, options, chosen = run(
+        baselines.metric_choices("boiler-1", client=fakes.FakeClient(baseline=True))
+    )
+    values = [o["value"] for o in options]
+    assert chosen == "eta_1" and "eta_2" in values
+    assert not [v for v in values if v.startswith(("expected_", "cusum_", "ewma_"))]
+
+
+def test_reference_period_is_the_shown_range_or_the_dragged_span():
+    shown = {
+        "start": "2026-09-01T00:00:00+00:00",
+        "end": "2026-12-01T00:00:00+00:00",
+        "zone": "Europe/Vienna",
+    }
+    token = _triggered(f"{baselines.SHOWN}.data")
+    try:
+        period, text = baselines.pick_period(None, shown)
+    finally:
+        context_value.reset(token)
+    assert period == {"start": "2026-09-01T00:00:00+00:00", "end": "2026-12-01T00:00:00+00:00"}
+    assert text == "From 2026-09-01 02:00 CEST to 2026-12-01 01:00 CET"
+    token = _triggered(f"{baselines.CHART}.relayoutData")
+    try:
+        relayout = {"xaxis.range[0]": "2026-10-05 00:00", "xaxis.range[1]": "2026-11-02 00:00"}
+        period, _ = baselines.pick_period(relayout, shown)
+    finally:
+        context_value.reset(token)
+    # wall-clock times of Vienna: summer time (UTC+2) on 5 October, winter (UTC+1) on 2 November
+    assert period == {"start": "2026-10-04T22:00:00+00:00", "end": "2026-11-01T23:00:00+00:00"}
+
+
+def test_fit_sends_the_period_and_shows_the_verdict():
+    client = fakes.FakeClient(baselines=[])
+    period = {"start": "2026-10-04T22:00:00+00:00", "end": "2026-11-01T23:00:00+00:00"}
+    result, changed = run(baselines.fit(1, "boiler-1", "eta_1", period, 0, client=client))
+    method, path, kwargs = client.calls[-1]
+    assert (method, path) == ("POST", "/units/boiler-1/baselines")
+    assert kwargs["json"] == {
+        "metric": "eta_1",
+        "start": "2026-10-04T22:00:00Z",
+        "end": "2026-11-01T23:00:00Z",
+    }
+    assert changed == 1
+    summary = text_of(result)
+    assert "Version 2 of First-law efficiency (HHV): linear in load" in summary
+    assert "ASHRAE Guideline 14 meets" in summary and "CV(RMSE) 1.0 %" in summary
+
+
+def test_activate_the_selected_version():
+    client = fakes.FakeClient(baselines=[])
+    assert run(baselines.activate(1, [], [], "boiler-1", 0, client=client)) == (
+        "Select a version first.",
+        0,
+    )
+    message, changed = run(
+        baselines.activate(1, [1], [{"version": 2}, {"version": 1}], "boiler-1", 4, client=client)
+    )
+    assert client.calls[-1][:2] == ("POST", "/units/boiler-1/baselines/1/activate")
+    assert message.startswith("Version 1 is active") and changed == 5
+
+
+def test_baseline_chart_in_display_units_and_the_plant_clock():
+    client = fakes.FakeClient(baseline=True)
+    fig, shown = run(baselines.draw(_baseline_context(client), "eta_1", "7d", SI, client=client))
+    assert fig.layout.yaxis.title.text == "First-law efficiency (HHV) [%]"
+    assert shown["zone"] == "Europe/Vienna"

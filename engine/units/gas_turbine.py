@@ -195,7 +195,8 @@ ROLES: tuple[Role, ...] = (
         required=False,
         description=(
             "Ambient dry-bulb temperature, where the relative humidity is measured; the "
-            "dead-state temperature T0 when not bound."
+            "compressor inlet temperature when not bound (not T0: a relative humidity "
+            "taken at a fixed T0 can mean supersaturated air at the inlet)."
         ),
     ),
     Role(
@@ -594,7 +595,10 @@ def gas_turbine_performance(
     t2 = _column(inputs, "compressor_discharge_temperature")
     p2 = _column(inputs, "compressor_discharge_pressure")
     t_ex = _column(inputs, "exhaust_temperature")
-    t_amb = _optional(inputs, "ambient_temperature", t0)
+    # Without an ambient thermometer the humidity is taken at the compressor inlet: the
+    # same air without inlet conditioning, and never supersaturated there (a fixed T0
+    # of 25 degC with 60 % would put winter inlet air above saturation).
+    t_amb = _optional(inputs, "ambient_temperature", t1)
     p_amb = _optional(inputs, "ambient_pressure", p0)
     p1 = _optional(inputs, "compressor_inlet_pressure", p_amb)
     p_ex = _optional(inputs, "exhaust_pressure", p_amb)

@@ -538,12 +538,16 @@ def test_impossible_readings_are_flagged():
     )
 
 
-def test_defaults_fall_back_to_the_dead_state_and_iso_humidity():
+def test_ambient_defaults():
     bare = {k: v for k, v in _row().items() if not k.startswith(("ambient", "compressor_inlet_p"))}
-    out = _run(bare, t0=T_AMB, p0=P_AMB).iloc[0]
-    # T_amb = T0 = 15 degC, p_amb = p0, RH = 0.6: the ISO humidity ratio.
+    # The plant's default dead state of 25 degC, a 15 degC inlet: the humidity is taken
+    # at the inlet (60 % at 15 degC and p0, the ISO humidity ratio), the pressure at p0.
+    out = _run(bare, t0=298.15, p0=P_AMB).iloc[0]
     assert out["inlet_humidity_ratio"] == pytest.approx(ISO_HUMIDITY_RATIO, rel=1e-12)
     assert out["compressor_pressure_ratio"] == pytest.approx(P2 / P_AMB, rel=1e-12)
+    # 60 % at 25 degC would be above saturation at 15 degC (HAPropsSI, 1 atm).
+    w_25 = HAPropsSI("W", "T", 298.15, "P", P_AMB, "R", 0.6)
+    assert w_25 > HAPropsSI("W", "T", 288.15, "P", P_AMB, "R", 1.0)
 
 
 def test_volume_flow_and_measured_heating_value():

@@ -51,6 +51,25 @@ def _lists(body: SubscriptionCreate | SubscriptionUpdate) -> dict[str, list[str]
     }
 
 
+def _check_filters(session: Session, body: SubscriptionCreate | SubscriptionUpdate) -> None:
+    """Plant and unit slugs in filters must exist: a typo would silently match nothing."""
+    from api.plants.models import Plant, Unit
+
+    errors = []
+    for field, model in (("plants", Plant), ("units", Unit)):
+        wanted = getattr(body, field) or []
+        known = set(session.scalars(select(model.slug).where(model.slug.in_(wanted))))
+        errors += [
+            {"field": f"{field}[{i}]", "message": f"no {field[:-1]} {slug!r}"}
+            for i, slug in enumerate(wanted)
+            if slug not in known
+        ]
+    if errors:
+        raise InvalidInput(
+            "the filters name " + "; ".join(e["message"] for e in errors), errors=errors
+        )
+
+
 def create_subscription(
     *,
     session: Session,
@@ -60,6 +79,7 @@ def create_subscription(
 ) -> WebhookSubscription:
     """Check the URL against the address policy (no connection is made) and store."""
     check_url(body.url, allow_list, resolver=resolver)
+    _check_filters(session, body)
     subscription = WebhookSubscription(
         url=body.url,
         description=body.description,
@@ -93,6 +113,7 @@ def update_subscription(
 ) -> WebhookSubscription:
     subscription = get_subscription(session, subscription_id)
     given = body.model_fields_set
+    _check_filters(session, body)
     if "url" in given:
         if body.url is None:
             raise InvalidInput("url cannot be null", errors=[{"field": "url", "message": "null"}])

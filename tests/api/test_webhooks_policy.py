@@ -166,8 +166,15 @@ def test_subscribing_a_private_address_is_a_clear_problem(client, admin) -> None
     assert client.get(WEBHOOKS, headers=admin).json()["webhooks"] == []
 
 
-def test_subscription_lifecycle(client, admin, app) -> None:
+def test_subscription_lifecycle(client, plant, admin, app) -> None:
     app.state.webhook_resolver = lambda host, port: {"hooks.plant.test": ["8.8.8.8"]}[host]
+    typo = client.post(
+        WEBHOOKS,
+        json={"url": "https://hooks.plant.test/in", "units": ["boiler-a", "boiler-q"]},
+        headers=admin,
+    )
+    assert typo.status_code == 422
+    assert typo.json()["errors"] == [{"field": "units[1]", "message": "no unit 'boiler-q'"}]
     created = client.post(
         WEBHOOKS,
         json={

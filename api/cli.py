@@ -29,6 +29,7 @@ app.add_typer(keys_app, name="keys")
 
 COMMAND_MODULES = (
     "api.pipeline.commands",
+    "api.baselines.commands",
     "api.alerts.commands",
     "api.webhooks.commands",
     "api.demo.commands",

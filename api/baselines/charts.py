@@ -15,7 +15,8 @@ A recomputed earlier range is charted again from its checkpoint; the intervals a
 keep the chart values they had (the charts are not redrawn forward, as alerts are not
 raised again for the past). A full redraw: activate the baseline again.
 
-Checkpoints kept: the origin, and the last one of each UTC day.
+Checkpoints kept: the origin, those of the last hour before the newest write, and the
+last one of each earlier UTC day.
 """
 
 from __future__ import annotations
@@ -46,6 +47,9 @@ from engine.drift import (
 )
 
 DAY_MS = 86_400_000
+RECENT_MS = 3_600_000
+"""Checkpoints of the last hour are all kept: live readings arrive as one-interval spans
+overlapping by the interval a reading holds into, and each continues from the one before."""
 REPLAY_LIMIT = 10_080
 """Most stored intervals replayed to rebuild a chart's state (a week of minutes). [-]"""
 FALSE_ALARM_SPACING_S = 365.0 * 86_400.0
@@ -197,28 +201,17 @@ def save_checkpoint(
     ewma_state: EwmaState,
     cusum_state: CusumState,
 ) -> None:
-    """Store the state after every interval before ``t_ms``; keep one checkpoint per UTC
-    day (the last) besides the origin."""
+    """Store the state after every interval before ``t_ms``; prune the same UTC day's
+    checkpoints older than :data:`RECENT_MS` before it (never the origin)."""
     metric = baseline.metric
     origin = baseline.chart_origin_ms
     day = (t_ms // DAY_MS) * DAY_MS
-    condition = [
-        ChartCheckpoint.unit_id == unit_id,
-        ChartCheckpoint.metric == metric,
-        ChartCheckpoint.t_ms >= day,
-        ChartCheckpoint.t_ms <= t_ms,
-    ]
+    same = [ChartCheckpoint.unit_id == unit_id, ChartCheckpoint.metric == metric]
+    older = [ChartCheckpoint.t_ms >= day, ChartCheckpoint.t_ms < t_ms - RECENT_MS]
     if origin is not None:
-        condition.append(ChartCheckpoint.t_ms != origin)
-    session.execute(delete(ChartCheckpoint).where(*condition))
-    if t_ms == origin:
-        session.execute(
-            delete(ChartCheckpoint).where(
-                ChartCheckpoint.unit_id == unit_id,
-                ChartCheckpoint.metric == metric,
-                ChartCheckpoint.t_ms == t_ms,
-            )
-        )
+        older.append(ChartCheckpoint.t_ms != origin)
+    session.execute(delete(ChartCheckpoint).where(*same, *older))
+    session.execute(delete(ChartCheckpoint).where(*same, ChartCheckpoint.t_ms == t_ms))
     session.add(
         ChartCheckpoint(
             unit_id=unit_id,

@@ -30,6 +30,7 @@ from sqlalchemy.dialects import postgresql, sqlite
 from sqlalchemy.orm import Session, sessionmaker
 
 from api.alerts.evaluate import evaluate_after_results
+from api.baselines.stage import apply_baselines
 from api.core.db import lock_for_write, utcnow
 from api.core.problems import NotFound
 from api.pipeline import queue
@@ -74,6 +75,8 @@ def unregister_after_compute(hook: AfterCompute) -> None:
         _after_compute.remove(hook)
 
 
+# Baselines first: expected values, drift and CUSUM are what drift and CUSUM rules read.
+register_after_compute(apply_baselines)
 # Alert rules judge every chunk's results in its transaction (in a savepoint of their own).
 register_after_compute(evaluate_after_results)
 

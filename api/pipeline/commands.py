@@ -12,7 +12,7 @@ from typing import Annotated
 import typer
 
 from api.pipeline import queue
-from api.pipeline.worker import POLL_SECONDS, Options, default_owner, run_once
+from api.pipeline.worker import POLL_SECONDS, Options, WorkerThread, default_owner, run_once
 
 
 def _session_factory():  # type: ignore[no-untyped-def]
@@ -45,33 +45,34 @@ def worker(
     _setup_logging()
     factory = _session_factory()
     owner = owner or default_owner()
-    stop = threading.Event()
+    typer.echo(f"worker {owner}: started")
+    if once:
+        done = run_once(factory, owner)
+        typer.echo(f"worker {owner}: stopped after {done} span(s)")
+        return
+    thread = WorkerThread(factory, owner=owner, poll_seconds=poll)
     in_main = threading.current_thread() is threading.main_thread()
     previous: dict[int, object] = {}
     if in_main:
 
         def graceful(signum: int, _frame: object) -> None:
-            if stop.is_set() and signum == signal.SIGINT:
+            if thread.stopping and signum == signal.SIGINT:
                 raise KeyboardInterrupt  # a second Ctrl-C: leave at once (the lease expires)
             typer.echo(f"worker {owner}: stopping after the current chunk", err=True)
-            stop.set()
+            thread.request_stop()
 
         for signum in (signal.SIGTERM, signal.SIGINT):
             previous[signum] = signal.signal(signum, graceful)
-    typer.echo(f"worker {owner}: started")
-    done = 0
+    thread.start()
     try:
-        while not stop.is_set():
-            done += run_once(factory, owner, should_stop=stop.is_set)
-            if once:
-                break
-            stop.wait(poll)
+        while thread.is_alive():
+            thread.join(0.5)
     except KeyboardInterrupt:
-        stop.set()
+        pass
     finally:
         for signum, handler in previous.items():
             signal.signal(signum, handler)  # type: ignore[arg-type]
-    typer.echo(f"worker {owner}: stopped after {done} span(s)")
+    typer.echo(f"worker {owner}: stopped after {thread.spans_done} span(s)")
 
 
 def _parse_time(text: str, option: str) -> int:

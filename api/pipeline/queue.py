@@ -31,7 +31,7 @@ import datetime as dt
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from sqlalchemy import and_, delete, exists, or_, select, text, update
+from sqlalchemy import and_, delete, exists, func, or_, select, text, update
 from sqlalchemy.orm import Session
 
 from api.core.db import lock_for_write, utcnow
@@ -45,7 +45,7 @@ MAX_ATTEMPTS = 5
 RETRY_BASE_SECONDS = 10.0
 """Back-off after the n-th failure: ``RETRY_BASE_SECONDS * 2**(n-1)``. [s]"""
 CANDIDATES = 32
-"""Claimable spans looked at per claim (their units are tried in order)."""
+"""Units with claimable spans looked at per claim, oldest work first."""
 MAX_MERGE = 10_000
 """Most spans of one unit merged into one claim."""
 ADVISORY_CLASS = 0x4C57
@@ -122,11 +122,18 @@ def claim_next(
     postgres = session.get_bind().dialect.name == "postgresql"
     if not postgres:
         lock_for_write(session)
-    query = select(WorkSpan.unit_id).where(_claimable(now))
+    # Units with claimable spans and no live lease, oldest work first; filtering the
+    # leased units out here keeps one busy unit's backlog from hiding the others.
+    leased = select(WorkSpan.unit_id).where(
+        WorkSpan.state == SpanState.LEASED.value, WorkSpan.lease_expires_at > now
+    )
+    query = select(WorkSpan.unit_id).where(_claimable(now), WorkSpan.unit_id.not_in(leased))
     if unit_id is not None:
         query = query.where(WorkSpan.unit_id == unit_id)
-    candidates = session.scalars(query.order_by(WorkSpan.id).limit(CANDIDATES)).all()
-    for unit in dict.fromkeys(candidates):
+    candidates = session.scalars(
+        query.group_by(WorkSpan.unit_id).order_by(func.min(WorkSpan.id)).limit(CANDIDATES)
+    ).all()
+    for unit in candidates:
         if postgres and not session.scalar(
             text("SELECT pg_try_advisory_xact_lock(:cls, :unit)"),
             {"cls": ADVISORY_CLASS, "unit": unit},

@@ -294,8 +294,17 @@ class WorkerThread(threading.Thread):
         with self.session_factory() as session:
             queue.prune_done(session, older_than=KEEP_DONE, clock=self.options.clock)
 
+    @property
+    def stopping(self) -> bool:
+        return self._stop_event.is_set()
+
+    def request_stop(self) -> None:
+        """Ask the thread to finish its current chunk, release its span, and end (no wait;
+        safe in a signal handler)."""
+        self._stop_event.set()
+
     def stop(self, timeout: float | None = 30.0) -> None:
-        """Ask the thread to finish its current chunk, release its span, and end."""
+        """:meth:`request_stop`, then wait up to ``timeout`` seconds for the thread."""
         self._stop_event.set()
         if self.is_alive() and threading.current_thread() is not self:
             self.join(timeout)

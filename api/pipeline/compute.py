@@ -147,7 +147,8 @@ def compute_range(
     else:
         dead = _constant_dead_state(config.t0_k, config.p0_pa)
 
-    result = kind.model(inputs, config.parameters, ModelContext(dead=dead, fuel=config.fuel))
+    context = ModelContext(dead=dead, fuel=config.fuel, text_parameters=config.text_parameters)
+    result = kind.model(inputs, config.parameters, context)
     out = pd.DataFrame(index=t_index)
     for column in kind.results:
         if column.name in result.columns:

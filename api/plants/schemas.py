@@ -99,6 +99,13 @@ class ParameterRead(BaseModel):
     description: str
 
 
+class TextParameterRead(BaseModel):
+    name: str
+    choices: list[str]
+    default: str | None
+    description: str
+
+
 class PortGroupRead(BaseModel):
     name: str
     roles: list[RoleRead]
@@ -116,6 +123,9 @@ class KindRead(BaseModel):
     port_groups: list[PortGroupRead]
     alternatives: list[list[str]]
     parameters: list[ParameterRead]
+    text_parameters: list[TextParameterRead]
+    fuel_roles: list[str]
+    load_result: str | None
     results: list[ResultColumnRead]
 
 

@@ -78,7 +78,7 @@ class _Resolved:
     fuels: dict[str, FuelProperties]
     tag_si: dict[str, str]
     tag_columns: dict[str, dict[str, Any]]
-    unit_parameters: dict[str, dict[str, float]]
+    unit_parameters: dict[str, dict[str, float | str]]
 
 
 def _pydantic_errors(exc: ValidationError) -> list[dict[str, Any]]:
@@ -184,7 +184,7 @@ def _resolve(
     # Units: catalogue checks, then each binding's tag and its unit of measure.
     tag_si: dict[str, str] = {}
     tag_feeds: dict[str, str] = {}
-    parameters: dict[str, dict[str, float]] = {}
+    parameters: dict[str, dict[str, float | str]] = {}
     for slug, unit in doc.units.items():
         where = f"unit {slug!r}"
         kind = kinds.get(unit.kind)
@@ -197,15 +197,20 @@ def _resolve(
         if unit.fuel is not None and unit.fuel not in doc.fuels:
             err(f"units.{slug}.fuel", f"{where}: fuel {unit.fuel!r} is not defined under fuels")
         values: dict[str, float] = {}
+        texts: dict[str, str] = {}
         for pname, pvalue in unit.parameters.items():
+            if kind.text_parameter(pname) is not None:
+                texts[pname] = str(pvalue)  # a name (refrigerant, basis), not a quantity
+                continue
             declared = kind.parameter(pname)
             if declared is None:
                 continue  # UnitKind.validate names it
             values[pname] = quantity(
                 f"units.{slug}.parameters.{pname}", pvalue, declared.unit, atmosphere
             )
-        parameters[slug] = values
-        for problem in kind.validate(unit.inputs.keys(), values, unit.fuel is not None):
+        parameters[slug] = {**values, **texts}
+        problems = kind.validate(unit.inputs.keys(), values, unit.fuel is not None, texts)
+        for problem in problems:
             path = f"units.{slug}"
             if problem.where.startswith("role '"):
                 path += ".inputs." + problem.where[len("role '") : -1]
@@ -608,6 +613,8 @@ class UnitConfig:
     kind: str
     parameters: dict[str, float]
     """The kind's defaults overlaid with the configured values."""
+    text_parameters: dict[str, str]
+    """The kind's name-valued parameters (refrigerant, O2 basis), defaults overlaid."""
     bindings: dict[str, int]
     """Role -> tag_id."""
     fuel: FuelProperties | None
@@ -644,12 +651,16 @@ def load_unit_config(*, session: Session, unit_id: int) -> UnitConfig:
             select(Tag.id).where(Tag.plant_id == plant.id, Tag.name == plant.ambient_tag)
         )
     kind = all_kinds().get(unit.kind)
-    params = kind.resolve_parameters(unit.parameters) if kind else dict(unit.parameters)
+    stored = dict(unit.parameters)
+    texts = {k: str(v) for k, v in stored.items() if kind and kind.text_parameter(k) is not None}
+    numbers = {k: v for k, v in stored.items() if k not in texts}
+    params = kind.resolve_parameters(numbers) if kind else numbers
     return UnitConfig(
         unit_id=unit.id,
         slug=unit.slug,
         kind=unit.kind,
         parameters={k: float(v) for k, v in params.items() if v is not None},
+        text_parameters=kind.resolve_text_parameters(texts) if kind else texts,
         bindings={b.role: b.tag_id for b in unit.bindings},
         fuel=fuel_of(unit.fuel, plant.atmosphere_pa) if unit.fuel else None,
         plant_id=plant.id,

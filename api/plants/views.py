@@ -29,6 +29,7 @@ from api.plants.schemas import (
     ResultColumnRead,
     RoleRead,
     TagRead,
+    TextParameterRead,
     UnitList,
     UnitRead,
 )
@@ -245,6 +246,14 @@ def _kind_read(kind: UnitKind) -> KindRead:
             )
             for p in kind.parameters
         ],
+        text_parameters=[
+            TextParameterRead(
+                name=t.name, choices=list(t.choices), default=t.default, description=t.description
+            )
+            for t in kind.text_parameters
+        ],
+        fuel_roles=list(kind.fuel_roles),
+        load_result=kind.load_result,
         results=[
             ResultColumnRead(name=r.name, unit=r.unit, description=r.description)
             for r in kind.results

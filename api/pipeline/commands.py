@@ -7,7 +7,7 @@ import logging
 import signal
 import threading
 import time
-from typing import Annotated
+from typing import Annotated, Any
 
 import typer
 
@@ -52,7 +52,7 @@ def worker(
         return
     thread = WorkerThread(factory, owner=owner, poll_seconds=poll)
     in_main = threading.current_thread() is threading.main_thread()
-    previous: dict[int, object] = {}
+    previous: dict[signal.Signals, Any] = {}
     if in_main:
 
         def graceful(signum: int, _frame: object) -> None:
@@ -61,8 +61,8 @@ def worker(
             typer.echo(f"worker {owner}: stopping after the current chunk", err=True)
             thread.request_stop()
 
-        for signum in (signal.SIGTERM, signal.SIGINT):
-            previous[signum] = signal.signal(signum, graceful)
+        for which in (signal.SIGTERM, signal.SIGINT):
+            previous[which] = signal.signal(which, graceful)
     thread.start()
     try:
         while thread.is_alive():
@@ -70,8 +70,8 @@ def worker(
     except KeyboardInterrupt:
         pass
     finally:
-        for signum, handler in previous.items():
-            signal.signal(signum, handler)  # type: ignore[arg-type]
+        for which, handler in previous.items():
+            signal.signal(which, handler)
     typer.echo(f"worker {owner}: stopped after {thread.spans_done} span(s)")
 
 

@@ -155,9 +155,12 @@ def claim_next(
         ids, start, end = merge_extent([(r.id, r.start_ms, r.end_ms) for r in rows])
         carrier = min(ids)
         attempts = max(r.attempts for r in rows if r.id in set(ids)) + 1
-        interval_ms = 1000 * int(
-            session.scalar(select(Plant.interval_seconds).join(Unit).where(Unit.id == unit))
+        interval_s = session.scalar(
+            select(Plant.interval_seconds).join(Unit).where(Unit.id == unit)
         )
+        if interval_s is None:
+            continue  # the unit was just deleted (its spans go with it)
+        interval_ms = 1000 * int(interval_s)
         end += hold_intervals * interval_ms
         session.execute(
             update(WorkSpan)

@@ -21,7 +21,7 @@ import re
 import numpy as np
 import pandas as pd
 
-from api.results.service import ResultSet, rfc3339
+from api.results.service import ResultSet, rfc3339_many
 
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
@@ -55,7 +55,7 @@ def to_csv(results: ResultSet) -> str:
             columns[f"{series.metric} count"] = pd.Series(series.count, index=index)
     frame = pd.DataFrame(columns) if columns else pd.DataFrame()
     frame = frame.sort_index()
-    times = rfc3339(frame.index.to_numpy(dtype=np.int64)) if len(frame) else []
+    times = rfc3339_many(frame.index.to_numpy(dtype=np.int64))
     frame.insert(0, "time", times)
     for name in frame.columns:
         if frame[name].dtype == object:

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Collection
+from typing import Any
 
 import numpy as np
 from sqlalchemy import (
@@ -162,8 +163,7 @@ def _sqlite_bits(
     values = np.fromiter((r[2] for r in rows), np.int64, len(rows))
     starts = np.flatnonzero(np.r_[True, (blocks[1:] != blocks[:-1]) | (names[1:] != names[:-1])])
     ored = np.bitwise_or.reduceat(values, starts)
-    dbapi = session.connection().connection.dbapi_connection
-    assert dbapi is not None
+    dbapi: Any = session.connection().connection.dbapi_connection
     cur = dbapi.cursor()
     try:
         cur.executemany(

@@ -22,7 +22,9 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from sqlalchemy import bindparam, select, text
@@ -97,12 +99,17 @@ def to_ms(moment: dt.datetime) -> int:
     return int(round(moment.timestamp() * 1000))
 
 
-def rfc3339(t_ms: np.ndarray | int) -> list[str] | str:
-    """UTC epoch milliseconds as RFC 3339 text (whole seconds unless a value has ms)."""
-    arr = np.atleast_1d(np.asarray(t_ms, dtype=np.int64))
+def rfc3339_many(t_ms: np.ndarray) -> list[str]:
+    """UTC epoch milliseconds as RFC 3339 texts (whole seconds unless a value has ms)."""
+    arr = np.asarray(t_ms, dtype=np.int64).reshape(-1)
     unit = "s" if not (arr % 1000).any() else "ms"
-    texts = [s + "Z" for s in np.datetime_as_string(arr.astype("datetime64[ms]"), unit=unit)]
-    return texts if np.ndim(t_ms) else texts[0]
+    stamps = np.datetime_as_string(arr.astype("datetime64[ms]"), unit=unit)  # type: ignore[call-overload]
+    return [s + "Z" for s in stamps.tolist()]
+
+
+def rfc3339(t_ms: int) -> str:
+    """One UTC epoch millisecond time as RFC 3339 text."""
+    return rfc3339_many(np.array([t_ms]))[0]
 
 
 def choose_bucket_ms(
@@ -246,7 +253,7 @@ def query_results(
 _EMPTY = (np.empty(0, np.int64), *(np.empty(0) for _ in range(3)), np.empty(0, np.int64))
 
 
-def _split(rows: list, metrics: list[str]) -> dict[str, tuple[np.ndarray, ...]]:
+def _split(rows: Sequence[Any], metrics: list[str]) -> dict[str, tuple[np.ndarray, ...]]:
     """Rows (metric, t, mean, min, max, count) sorted by metric -> arrays per metric."""
     if not rows:
         return {}
@@ -375,7 +382,7 @@ def _combine(rows: list, metrics: list[str]) -> dict[str, tuple[np.ndarray, ...]
     lows = np.fmin.reduceat(low_arr, starts)
     highs = np.fmax.reduceat(high_arr, starts)
     group_metric = midx[starts]
-    out = {}
+    out: dict[str, tuple[np.ndarray, ...]] = {}
     for i, metric in enumerate(metrics):
         mask = group_metric == i
         if mask.any():
@@ -434,7 +441,7 @@ def latest(
     t = _latest_t(session, unit.id)
     if t is None:
         return Latest(None, {}, {})
-    rows = dict(
+    rows: dict[str, float | None] = dict(
         session.execute(
             text(
                 "SELECT metric, value FROM results WHERE unit_id = :u AND t_ms = :t "

@@ -20,10 +20,11 @@ NaN results are stored as NULL (so that SQL aggregates skip them).
 from __future__ import annotations
 
 from collections.abc import Collection
+from typing import Any
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import delete
+from sqlalchemy import ColumnElement, delete
 from sqlalchemy.orm import Session
 
 from api.results.models import ResultValue
@@ -77,7 +78,7 @@ def replace_results(
     """
     if only is not None and keep:
         raise ValueError("give either only or keep, not both")
-    condition = [
+    condition: list[ColumnElement[bool]] = [
         ResultValue.unit_id == unit_id,
         ResultValue.t_ms >= start_ms,
         ResultValue.t_ms < end_ms,
@@ -88,7 +89,9 @@ def replace_results(
         condition.append(ResultValue.metric.not_in(list(keep)))
     session.execute(delete(ResultValue).where(*condition))
     written = _upsert(session, unit_id, frame)
-    refresh_rollups(session, unit_id, start_ms, end_ms)
+    # With ``only``, no other metric changed: their rollups need no rebuilding.
+    changed = None if only is None else {*only, *(str(c) for c in frame.columns)}
+    refresh_rollups(session, unit_id, start_ms, end_ms, metrics=changed)
     return written
 
 
@@ -112,7 +115,7 @@ def delete_results(
     ids = list(unit_ids)
     if not ids:
         return
-    condition = [ResultValue.unit_id.in_(ids)]
+    condition: list[ColumnElement[bool]] = [ResultValue.unit_id.in_(ids)]
     if start_ms is not None:
         condition.append(ResultValue.t_ms >= start_ms)
     if end_ms is not None:
@@ -167,8 +170,7 @@ def _upsert_postgresql(
     t_rows: np.ndarray,
     values: np.ndarray,
 ) -> None:
-    dbapi = session.connection().connection.dbapi_connection
-    assert dbapi is not None
+    dbapi: Any = session.connection().connection.dbapi_connection
     with dbapi.cursor() as cur:
         cur.execute(
             f"CREATE TEMP TABLE IF NOT EXISTS {STAGE} "
@@ -201,8 +203,7 @@ def _upsert_sqlite(
     t_rows: np.ndarray,
     values: np.ndarray,
 ) -> None:
-    dbapi = session.connection().connection.dbapi_connection
-    assert dbapi is not None
+    dbapi: Any = session.connection().connection.dbapi_connection
     metric_names = np.asarray(names, dtype=object)[metric_idx]
     stored = values.astype(object)
     stored[np.isnan(values)] = None

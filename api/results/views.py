@@ -25,7 +25,7 @@ router = APIRouter(prefix="/units", tags=["results"])
 
 
 def _values(arr: np.ndarray) -> list[float | None]:
-    return np.where(np.isnan(arr), None, arr).tolist()
+    return [None if v != v else v for v in arr.tolist()]  # NaN -> null
 
 
 def _body(results: service.ResultSet) -> dict:
@@ -35,7 +35,7 @@ def _body(results: service.ResultSet) -> dict:
         # Series of one request nearly always share their bucket starts: format once.
         key = t_ms.tobytes()
         if key not in texts:
-            texts[key] = service.rfc3339(t_ms) if len(t_ms) else []  # type: ignore[assignment]
+            texts[key] = service.rfc3339_many(t_ms)
         return texts[key]
 
     return {

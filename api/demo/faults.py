@@ -119,8 +119,8 @@ def default_schedule(days: float) -> list[Fault]:
 
     The first :data:`CLEAN_FRACTION` of the period is clean. Windows of the short faults
     are at most a day or two and shrink with short backfills, so that a few simulated
-    days (the tests) still hold every fault. A last gap of the chip line falls 20 min
-    into the live phase, for a staleness alert to fire while one watches.
+    days (the tests) still hold every fault. A last gap of the chip line, 20 min long,
+    falls 10 min into the live phase, for a staleness alert to fire while one watches.
     """
     span = days * DAY_S
     hour = 3600.0
@@ -140,7 +140,7 @@ def default_schedule(days: float) -> list[Fault]:
         Fault("turbine_wear", 0.65 * span, ramp_s=0.20 * span, size=0.05, unit="tg1"),
         Fault("meter_bias", bias[0], bias[1], size=-0.25, tags=("BB3.fw.flow",)),
         Fault("gap", gap[0], gap[1], tags=chip_line),
-        Fault("gap", span + 20 * 60.0, span + 50 * 60.0, tags=chip_line),
+        Fault("gap", span + 10 * 60.0, span + 30 * 60.0, tags=chip_line),
     ]
 
 

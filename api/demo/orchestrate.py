@@ -269,11 +269,14 @@ def run_demo(settings: Settings, plan: DemoPlan) -> None:
             last = [began]
 
             def progress(done: int) -> None:
-                if time.perf_counter() - last[0] > 10.0:
-                    last[0] = time.perf_counter()
+                now = time.perf_counter()
+                if now - last[0] > 10.0:
+                    last[0] = now
+                    total = len(sim.unit_fuel) * max(1.0, plan.days)
+                    left = (now - began) / done * max(0.0, total - done)
                     _echo(
-                        f"  computing: {done} unit-day chunks in {last[0] - began:.0f} s "
-                        f"(about {len(sim.unit_fuel) * plan.days:.0f} in all) ..."
+                        f"  computing: {done} of about {total:.0f} unit-days in "
+                        f"{now - began:.0f} s, about {left / 60:.0f} min left ..."
                     )
 
             chunks = compute_backlog(factory, stop, progress)
@@ -289,6 +292,18 @@ def run_demo(settings: Settings, plan: DemoPlan) -> None:
         if stop.is_set():
             _echo("stopped before serving")
             return
+        # Catch up on the minutes spent computing, so that no tag looks stale when the
+        # server's staleness timer first looks; the live simulator continues from here.
+        caught_up = sim.times(end_ms, time.time() * 1000, plan.step_s)
+        if caught_up.size:
+            backfill(
+                sim,
+                ServiceSink(factory, sim.slug),
+                end_ms,
+                int(caught_up[-1]) + 1,
+                step_s=plan.step_s,
+            )
+            end_ms = int(caught_up[-1])
 
         _echo("")
         _echo(f"  lostwork demo: {url}   (API docs: {url}/docs)")

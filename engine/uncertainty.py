@@ -49,7 +49,8 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
+from functools import cached_property
 from typing import Literal
 
 import numpy as np
@@ -136,11 +137,12 @@ class Propagation:
     results : DataFrame
         The model's output at the nominal inputs (result columns and ``flags``).
     result_columns : tuple of str
-        The result columns propagated to.
+        The result columns propagated to: every result column that is finite in at
+        least one row, in the model's order.
     input_names : tuple of str
         The inputs (role columns and pseudo-inputs) that carry an uncertainty, in the
         order of the first axis of the arrays below.
-    sensitivity : ndarray, shape (inputs, rows, results)
+    sensitivity : ndarray, shape (inputs, results, rows)
         Sensitivity coefficients ``c_i = dR/dX_i`` per row (Eq. 11a in [1]_; PTC 19.1's
         absolute sensitivity theta_i). Zero where the input's uncertainty is zero.
         [result unit / input unit]
@@ -148,6 +150,9 @@ class Propagation:
         Systematic standard uncertainty of each input per row. [input unit]
     random : ndarray, shape (inputs, rows)
         Random standard uncertainty of each input per row. [input unit]
+    nan_columns : tuple of str
+        Result columns that are NaN in every row (results a configuration does not
+        produce); not propagated, their uncertainty columns are NaN.
     """
 
     results: pd.DataFrame
@@ -156,13 +161,22 @@ class Propagation:
     sensitivity: np.ndarray
     systematic: np.ndarray
     random: np.ndarray
+    nan_columns: tuple[str, ...] = ()
+
+    @cached_property
+    def _squared(self) -> tuple[np.ndarray, np.ndarray]:
+        return self.systematic**2, self.random**2
 
     def _variances(self, sensitivity: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """(systematic, random) variance per row and result for given sensitivities."""
+        """(systematic, random) variance per row of one result, from its sensitivities.
+
+        ``sensitivity`` has shape (inputs, rows): one result at a time keeps the
+        temporaries small.
+        """
+        b2, s2 = self._squared
         with np.errstate(invalid="ignore", over="ignore"):
-            var_sys = np.sum((sensitivity * self.systematic[:, :, None]) ** 2, axis=0)
-            var_rand = np.sum((sensitivity * self.random[:, :, None]) ** 2, axis=0)
-        return var_sys, var_rand
+            c2 = np.square(sensitivity)
+            return np.einsum("ir,ir->r", c2, b2), np.einsum("ir,ir->r", c2, s2)
 
     def table(self, k: float = COVERAGE_FACTOR_95) -> pd.DataFrame:
         """Standard, random, systematic and expanded uncertainty of every result.
@@ -180,19 +194,30 @@ class Propagation:
             ``u95_<r>`` (expanded, ``k u``), all in the unit of ``r``. NaN where the
             result is NaN or a sensitivity could not be evaluated.
         """
-        var_sys, var_rand = self._variances(self.sensitivity)
-        nominal = self.results[list(self.result_columns)].to_numpy(dtype=float, na_value=np.nan)
-        missing = ~np.isfinite(nominal)
-        u_sys = np.where(missing, np.nan, np.sqrt(var_sys))
-        u_rand = np.where(missing, np.nan, np.sqrt(var_rand))
-        u = np.sqrt(u_sys**2 + u_rand**2)
-        columns: dict[str, np.ndarray] = {}
-        for j, name in enumerate(self.result_columns):
-            columns[f"u_{name}"] = u[:, j]
-            columns[f"u_random_{name}"] = u_rand[:, j]
-            columns[f"u_systematic_{name}"] = u_sys[:, j]
-            columns[f"u95_{name}"] = k * u[:, j]
-        return pd.DataFrame(columns, index=self.results.index)
+        position = {name: j for j, name in enumerate(self.result_columns)}
+        finite = np.isfinite(_as_array(self.results, self.result_columns))
+        every = [
+            name for name in self.results.columns if name in position or name in self.nan_columns
+        ]
+        # Filled column by column in the layout pandas keeps a float block in, so the
+        # frame is built without copying.
+        out = np.empty((4 * len(every), len(self.results)))
+        names: list[str] = []
+        for slot, name in enumerate(every):
+            u, u_rand, u_sys, u95 = out[4 * slot : 4 * slot + 4]
+            names += [f"u_{name}", f"u_random_{name}", f"u_systematic_{name}", f"u95_{name}"]
+            if name not in position:
+                out[4 * slot : 4 * slot + 4] = np.nan
+                continue
+            var_sys, var_rand = self._variances(self.sensitivity[:, position[name], :])
+            missing = ~finite[position[name]]
+            np.sqrt(var_sys + var_rand, out=u)
+            np.sqrt(var_rand, out=u_rand)
+            np.sqrt(var_sys, out=u_sys)
+            for column in (u, u_rand, u_sys):
+                column[missing] = np.nan
+            np.multiply(u, k, out=u95)
+        return pd.DataFrame(out.T, columns=names, index=self.results.index, copy=False)
 
     def difference(self, first: str, second: str) -> pd.DataFrame:
         """Uncertainty of the difference of two results that share inputs.
@@ -218,12 +243,11 @@ class Propagation:
         """
         i = self.result_columns.index(first)
         j = self.result_columns.index(second)
-        diff = self.sensitivity[:, :, [i]] - self.sensitivity[:, :, [j]]
-        var_sys, var_rand = self._variances(diff)
+        var_sys, var_rand = self._variances(self.sensitivity[:, i, :] - self.sensitivity[:, j, :])
         values = self.results[[first, second]].to_numpy(dtype=float, na_value=np.nan)
         missing = ~np.isfinite(values).all(axis=1)
-        u_sys = np.where(missing, np.nan, np.sqrt(var_sys[:, 0]))
-        u_rand = np.where(missing, np.nan, np.sqrt(var_rand[:, 0]))
+        u_sys = np.where(missing, np.nan, np.sqrt(var_sys))
+        u_rand = np.where(missing, np.nan, np.sqrt(var_rand))
         return pd.DataFrame(
             {"u": np.hypot(u_sys, u_rand), "u_random": u_rand, "u_systematic": u_sys},
             index=self.results.index,
@@ -285,7 +309,7 @@ def _perturbed_fuel(fuel: FuelProperties | None, name: str, step: float) -> Fuel
             raise ValueError(
                 f"an uncertainty is given for {name!r} but fuel {fuel.name!r} has no density"
             )
-        return dataclasses.replace(fuel, density_kg_per_m3=fuel.density_kg_per_m3 + step)
+        return replace(fuel, density_kg_per_m3=fuel.density_kg_per_m3 + step)
     scale = 1.0 + step / fuel.hhv_j_per_kg
     changes: dict[str, float] = {"hhv_j_per_kg": fuel.hhv_j_per_kg * scale}
     fields = {f.name for f in dataclasses.fields(fuel)}
@@ -298,7 +322,7 @@ def _perturbed_fuel(fuel: FuelProperties | None, name: str, step: float) -> Fuel
         value = getattr(fuel, field_name, None) if field_name in fields else None
         if value is not None:
             changes[field_name] = value * scale**power
-    return dataclasses.replace(fuel, **changes)
+    return replace(fuel, **changes)
 
 
 def _nominal_pseudo(context: ModelContext, name: str) -> float:
@@ -322,7 +346,7 @@ def _subset_context(context: ModelContext, rows: np.ndarray) -> ModelContext:
         for f in dataclasses.fields(dead)
         if np.ndim(getattr(dead, f.name)) > 0
     }
-    return dataclasses.replace(context, dead=dataclasses.replace(dead, **cut)) if cut else context
+    return replace(context, dead=replace(dead, **cut)) if cut else context
 
 
 def _evaluate(
@@ -330,10 +354,29 @@ def _evaluate(
     inputs: pd.DataFrame,
     params: Mapping[str, float],
     context: ModelContext,
-    columns: tuple[str, ...],
+    columns: Sequence[str],
 ) -> np.ndarray:
-    frame = model(inputs, params, context)
-    return frame[list(columns)].to_numpy(dtype=float, na_value=np.nan)
+    """The result columns as one float array of shape (results, rows)."""
+    return _as_array(model(inputs, params, context), columns)
+
+
+_WHOLE_FRAME_ROWS = 20_000
+"""Below this many rows a model's whole output is converted at once (pandas' fixed cost
+of selecting columns dominates); above it only the result columns are (bytes dominate)."""
+
+
+def _as_array(frame: pd.DataFrame, columns: Sequence[str]) -> np.ndarray:
+    """Columns of a model's output as one C-contiguous float array, shape (columns, rows)."""
+    names = list(frame.columns)
+    if len(frame) < _WHOLE_FRAME_ROWS:
+        try:
+            positions = [names.index(name) for name in columns]
+            # pandas hands a frame out column-major, so .T is row-per-column and the
+            # gather below copies whole contiguous columns.
+            return frame.to_numpy(dtype=float, na_value=np.nan).T[positions]
+        except (TypeError, ValueError):  # a non-numeric column besides the results
+            pass
+    return np.ascontiguousarray(frame[list(columns)].to_numpy(dtype=float, na_value=np.nan).T)
 
 
 def propagate(
@@ -410,7 +453,9 @@ def propagate(
     Rows where the forward step leaves the model's valid range (a finite nominal result
     becomes NaN) are evaluated again, those rows only, with a backward step; a row with
     NaN inputs or results has NaN uncertainty, and no row affects another. A row whose
-    input uncertainty is zero has a zero contribution from that input.
+    input uncertainty is zero has a zero contribution from that input. A result column
+    that is NaN in every row (a result the configuration does not produce) is not
+    propagated; its uncertainty columns are NaN.
 
     Examples
     --------
@@ -429,9 +474,16 @@ def propagate(
         raise ValueError(f"step_fraction must be positive, got {step_fraction!r}")
     function: ModelFunction = model.model if isinstance(model, UnitKind) else model
     base = function(inputs, params, context)
-    columns = _result_columns(model, base)
-    nominal = base[list(columns)].to_numpy(dtype=float, na_value=np.nan)
-    n, m = nominal.shape
+    declared = _result_columns(model, base)
+    values = _as_array(base, declared)
+    # A column NaN in every row (a result this configuration does not produce) is not
+    # propagated: it would only cost memory and time.
+    produced = np.isfinite(values).any(axis=1)
+    columns = [name for name, ok in zip(declared, produced, strict=True) if ok]
+    nan_columns = [name for name, ok in zip(declared, produced, strict=True) if not ok]
+    nominal = values[produced]  # (results, rows)
+    nominal_ok = np.isfinite(nominal)
+    m, n = nominal.shape
 
     names: list[str] = []
     for name in uncertainties:
@@ -445,7 +497,7 @@ def propagate(
 
     systematic = np.zeros((len(names), n))
     random = np.zeros((len(names), n))
-    sensitivity = np.zeros((len(names), n, m))
+    sensitivity = np.zeros((len(names), m, n))
     for i, name in enumerate(names):
         spec = uncertainties[name]
         systematic[i] = _per_row(spec.systematic, inputs.index, name)
@@ -456,36 +508,36 @@ def propagate(
         if not uncertain.any():
             continue  # exact input: no evaluation needed
         if name in PSEUDO_INPUTS:
-            step = step_fraction * float(np.nanmax(u))
             _nominal_pseudo(context, name)  # raises for a missing fuel or density
-            perturbed = dataclasses.replace(context, fuel=_perturbed_fuel(context.fuel, name, step))
-            shifted = _evaluate(function, inputs, params, perturbed, columns)
-            c = (shifted - nominal) / step
+            step = step_fraction * float(np.nanmax(u))
+            fuel = _perturbed_fuel(context.fuel, name, step)
+            shifted = _evaluate(function, inputs, params, replace(context, fuel=fuel), columns)
+            h = np.full(n, step)
+            lost = np.zeros(n, dtype=bool)
         else:
             h = np.where(uncertain, step_fraction * u, 0.0)
             x = inputs[name].to_numpy(dtype=float, na_value=np.nan)
-            moved = inputs.copy()
-            moved[name] = x + h
-            shifted = _evaluate(function, moved, params, context, columns)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                c = (shifted - nominal) / h[:, None]
-            # A forward step out of the valid range: step backward, those rows only.
-            lost = uncertain & (np.isfinite(nominal) & ~np.isfinite(shifted)).any(axis=1)
-            if lost.any():
-                rows = np.flatnonzero(lost)
-                back = inputs.iloc[rows].copy()
-                back[name] = x[rows] - h[rows]
-                behind = _evaluate(function, back, params, _subset_context(context, rows), columns)
-                c[rows] = (nominal[rows] - behind) / h[rows, None]
-        # Zero uncertainty contributes nothing, whatever the model does at that row.
-        sensitivity[i] = np.where(uncertain[:, None] | np.isnan(u)[:, None], c, 0.0)
+            shifted = _evaluate(function, inputs.assign(**{name: x + h}), params, context, columns)
+            lost = uncertain & (nominal_ok & ~np.isfinite(shifted)).any(axis=0)
+        # 1/h where uncertain; 0 where exact (no contribution); NaN where u is unknown.
+        with np.errstate(divide="ignore"):
+            inverse = np.where(uncertain, 1.0 / h, np.where(np.isnan(u), np.nan, 0.0))
+        np.subtract(shifted, nominal, out=sensitivity[i])
+        sensitivity[i] *= inverse
+        if lost.any():
+            # The forward step left the model's valid range: step backward, those rows only.
+            rows = np.flatnonzero(lost)
+            back = inputs.iloc[rows].assign(**{name: x[rows] - h[rows]})
+            behind = _evaluate(function, back, params, _subset_context(context, rows), columns)
+            sensitivity[i][:, rows] = (nominal[:, rows] - behind) / h[rows]
     return Propagation(
         results=base,
-        result_columns=columns,
+        result_columns=tuple(columns),
         input_names=tuple(names),
         sensitivity=sensitivity,
         systematic=systematic,
         random=random,
+        nan_columns=tuple(nan_columns),
     )
 
 
@@ -513,16 +565,15 @@ def top_contributors(
         largest; the shares of a full ranking sum to 1. A result without variance (or
         NaN at the row) has NaN shares. [-]
     """
+    variance = propagation.systematic**2 + propagation.random**2  # (inputs, rows)
     with np.errstate(invalid="ignore", over="ignore"):
-        terms = (propagation.sensitivity * propagation.systematic[:, :, None]) ** 2 + (
-            propagation.sensitivity * propagation.random[:, :, None]
-        ) ** 2
-    if row is not None:
-        position = propagation.results.index.get_loc(row)
-        per_input = terms[:, position, :]
-    else:
-        usable = np.isfinite(terms).all(axis=0)
-        per_input = np.where(usable[None], terms, 0.0).sum(axis=1)
+        if row is not None:
+            position = propagation.results.index.get_loc(row)
+            per_input = propagation.sensitivity[:, :, position] ** 2 * variance[:, None, position]
+        else:
+            terms = propagation.sensitivity**2 * variance[:, None, :]  # (inputs, results, rows)
+            usable = np.isfinite(terms).all(axis=0)
+            per_input = np.where(usable[None], terms, 0.0).sum(axis=2)
     total = per_input.sum(axis=0)
     ranking: dict[str, pd.Series] = {}
     for j, name in enumerate(propagation.result_columns):

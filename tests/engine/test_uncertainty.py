@@ -301,7 +301,7 @@ def test_boiler_contributors_match_a_hand_calculation():
         (FUEL_HEATING_VALUE, GAS.hhv_j_per_kg),
     ):
         i = prop.input_names.index(name)
-        c = prop.sensitivity[i, 0, prop.result_columns.index("eta_1")]
+        c = prop.sensitivity[i, prop.result_columns.index("eta_1"), 0]
         assert c * value / eta == pytest.approx(-1.0, rel=2e-4)
 
     # The same ranking for one row by label, cut to the first two.
@@ -450,6 +450,32 @@ def test_forward_step_out_of_range_falls_back_to_a_backward_step_for_those_rows_
     ).table()
     np.testing.assert_allclose(table["u_y"], [2.8, 2.9, 3.0], rtol=1e-12)
     assert calls == [3, 3, 1]  # nominal, forward over all rows, backward over one
+
+
+def test_a_result_nan_in_every_row_is_not_propagated_but_listed():
+    def with_unconfigured(inputs, params, context):
+        out = _products_model(inputs, params, context)
+        out.insert(1, "unconfigured", np.nan)
+        return out
+
+    inputs = pd.DataFrame({"a": [2.0, 1.0], "b": [3.0, 1.0], "c": [4.0, 1.0]})
+    prop = propagate(with_unconfigured, inputs, {}, CONTEXT, {"a": InputUncertainty(random=0.1)})
+    assert prop.result_columns == ("product", "quotient", "mixed")
+    assert prop.nan_columns == ("unconfigured",)
+    assert prop.sensitivity.shape == (1, 3, 2)
+    table = prop.table()
+    assert list(table.columns[:8]) == [
+        "u_product",
+        "u_random_product",
+        "u_systematic_product",
+        "u95_product",
+        "u_unconfigured",
+        "u_random_unconfigured",
+        "u_systematic_unconfigured",
+        "u95_unconfigured",
+    ]
+    assert table["u_unconfigured"].isna().all()
+    np.testing.assert_allclose(table["u_random_product"], [0.3, 0.1], rtol=1e-9)
 
 
 def test_exact_inputs_cost_no_evaluation_and_contribute_nothing():

@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import delete, func, select
+from sqlalchemy import delete, func, insert, select
 from sqlalchemy.orm import Session
 
 from api.baselines.data import load_frame
@@ -286,4 +286,4 @@ def replace_events(
         for e in events.itertuples(index=False)
     ]
     if rows:
-        session.execute(DriftEvent.__table__.insert(), rows)
+        session.execute(insert(DriftEvent), rows)

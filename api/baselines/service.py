@@ -234,7 +234,13 @@ def fit(
             + f"), and {counts['flagged']} carried quality flags"
             + (f" ({flagged_steady} of them steady)" if flagged_steady else "")
         )
-        raise NoSteadyIntervals(detail, reasons=reasons, **counts)
+        raise NoSteadyIntervals(
+            detail,
+            reasons=reasons,
+            intervals=counts["intervals"],
+            steady=counts["steady"],
+            flagged=counts["flagged"],
+        )
     series = data[request.metric].reindex(rows).rename(request.metric)
     regressors = data.reindex(index=rows, columns=[load, *others])
     try:
@@ -263,7 +269,9 @@ def fit(
             f"quality flags, with {request.metric!r} and every regressor) of "
             f"{counts['intervals']}: {text}",
             usable=n_usable,
-            **counts,
+            intervals=counts["intervals"],
+            steady=counts["steady"],
+            flagged=counts["flagged"],
         ) from None
     counts["usable"] = model.n
     best = None

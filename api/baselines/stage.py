@@ -293,6 +293,16 @@ def apply_baselines(session: Session, unit_id: int, start_ms: int, end_ms: int) 
     if room is not None:
         parts.append(room)
     frame = pd.concat(parts, axis=1)
-    replace_results(
-        session, unit_id, start_ms, end_ms, frame, only=names.declared_names(config.kind)
-    )
+    replace_results(session, unit_id, start_ms, end_ms, frame, only=_written(session, unit_id))
+
+
+def _written(session: Session, unit_id: int) -> list[str]:
+    """Every metric the stage may have stored for the unit: its unit-wide metrics and the
+    per-metric columns of each metric that has a baseline version (active or not)."""
+    fitted = session.scalars(
+        select(Baseline.metric).where(Baseline.unit_id == unit_id).distinct()
+    ).all()
+    out = [c.name for c in names.UNIT_METRICS]
+    for metric in fitted:
+        out += list(names.metric_names(metric).values())
+    return out

@@ -465,3 +465,50 @@ def test_compare_gives_each_version_guideline14_statistics_on_the_period(
         "versions 1 (eta_1) and 3 (eta_2) model different metrics; compare versions of the "
         "same metric"
     )
+
+
+@pytest.fixture
+def run(db_url, session_factory, monkeypatch):
+    from typer.testing import CliRunner
+
+    from api.cli import app
+    from api.core.config import get_settings
+
+    monkeypatch.setenv("LOSTWORK_DATABASE_URL", db_url)
+    get_settings.cache_clear()
+    runner = CliRunner()
+    yield lambda *args: runner.invoke(app, [str(a) for a in args])
+    get_settings.cache_clear()
+
+
+def test_cli_fits_a_period_given_in_plant_local_time_and_activates(
+    run, unit_id, session_factory
+) -> None:
+    frame = reference_day()
+    store(session_factory, unit_id, frame)
+    # The test plant keeps Europe/Berlin time: 01:00 local on 1 January is 00:00 UTC.
+    fitted = run(
+        "baseline", "fit", "--unit", "block-1", "--metric", "eta_1",
+        "--from", "2026-01-01T01:00", "--to", "2026-01-02T01:00",
+    )  # fmt: skip
+    assert fitted.exit_code == 0, fitted.output
+    steady = steady_state(frame, BLOCK_STEADY, WINDOW) & (frame["net_power_w"] > 0)
+    n = int((steady & (frame["flags"] == 0)).sum())
+    assert fitted.output.startswith(
+        "unit block-1: baseline version 1 of eta_1, fitted on 2026-01-01T00:00Z to "
+        f"2026-01-02T00:00Z: linear in net_power_w; n = {n} of 1440 computed intervals "
+        f"({int(steady.sum())} steady, 20 flagged); R2 0."
+    )
+    activated = run("baseline", "activate", "--unit", "block-1", "--version", "1")
+    assert activated.exit_code == 0, activated.output
+    assert activated.output.splitlines() == [
+        activated.output.splitlines()[0],
+        "  no readings from 2026-01-01T00:00Z on: nothing to recompute",
+    ]
+    assert "of eta_1 (active), fitted" in activated.output
+    unknown = run(
+        "baseline", "fit", "--unit", "block-1", "--metric", "eta_9",
+        "--from", "2026-01-01", "--to", "2026-01-02",
+    )  # fmt: skip
+    assert unknown.exit_code == 1
+    assert "unknown metric 'eta_9' for unit 'block-1' (kind block); known: " in unknown.output

@@ -75,8 +75,11 @@ STEP_FRACTION = 1e-2
 
 With ``h = 0.01 u`` the truncation error of the contribution ``c u`` is 0.5 % of the
 second-order term ``u^2 f''/2`` that the first-order method neglects anyway (see
-:func:`propagate`, Notes); the step is still five to seven orders above the round-off and
-IF97-solver noise of the models.
+:func:`propagate`, Notes). For a 1 % input uncertainty the step is 1e-4 of the value:
+about five orders above the residual noise of the IF97 inverse routes (about 1e-9
+relative) and twelve above round-off. Measured on the boiler and turbine models:
+sensitivities at steps from 1e-2 u to 1e-5 u agree to 1e-4 relative, the difference
+shrinking in proportion to the step (truncation, not noise).
 """
 
 FUEL_HEATING_VALUE = "fuel_heating_value"
@@ -456,6 +459,11 @@ def propagate(
     input uncertainty is zero has a zero contribution from that input. A result column
     that is NaN in every row (a result the configuration does not produce) is not
     propagated; its uncertainty columns are NaN.
+
+    Not modelled: correlation between the systematic errors of *different* inputs
+    (two thermometers calibrated against the same reference; PTC 19.1's correlated
+    systematic terms, Eq. 16 in [1]_). Every input's error is taken as independent of
+    the others'; correlated terms would add ``2 c_i c_k b_ik`` to ``b_R^2``.
 
     Examples
     --------

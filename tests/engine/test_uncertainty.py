@@ -18,11 +18,14 @@ Monte Carlo sampling error).
 
 from __future__ import annotations
 
+import doctest
+
 import numpy as np
 import pandas as pd
 import pytest
 from iapws import IAPWS97
 
+import engine.uncertainty as uncertainty_module
 from engine.catalogue import ModelContext, ResultColumn, Role, UnitKind
 from engine.checks import Flag
 from engine.deadstate import dead_state
@@ -694,3 +697,9 @@ def test_expanded_uncertainty_keeps_the_type():
     assert list(out.index) == ["a", "b"]
     assert out["a"] == 0.02
     assert np.isnan(out["b"])
+
+
+def test_docstring_example_runs():
+    # The example in propagate's docstring: 0.5 * sqrt(0.01^2 + 0.01^2) by GUM 5.1.6.
+    result = doctest.testmod(uncertainty_module)
+    assert (result.attempted, result.failed) == (6, 0)

@@ -143,7 +143,7 @@ def patch_rule(
     rule_id: int, body: RulePatch, session: SessionDep, settings: SettingsDep, _key: AdminKey
 ) -> RuleRead:
     """Enable or disable any rule (disabling resolves its open alert). A plant-file rule
-    gets the file's setting back at the next apply that changes it."""
+    gets the file's ``enabled`` back the next time the file is applied."""
     rule = service.set_enabled(
         session=session, rule_id=rule_id, enabled=body.enabled, base_url=settings.public_base_url
     )

@@ -229,7 +229,7 @@ def cusum_figure(
         fig.add_hline(
             y=decision_interval,
             line={"color": SIGNAL, "width": 1, "dash": "dot"},
-            annotation_text=f"h = {decision_interval:g}",
+            annotation_text=f"h = {format_number(decision_interval, 3)}",
             annotation_position="top left",
         )
     return _style(fig, x_title=x_title, y_title=axis_title("CUSUM", unit), height=240)

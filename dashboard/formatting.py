@@ -230,8 +230,13 @@ def lower_first(text: str) -> str:
     return text[:1].lower() + text[1:]
 
 
+MAX_DECIMALS = 6
+"""Decimals printed at most; smaller magnitudes print as 0."""
+
+
 def format_number(value, significant: int = 3) -> str:
-    """A number with ``significant`` digits, thousands separated, never in E notation."""
+    """A number with ``significant`` digits, thousands separated, never in E notation
+    (at most :data:`MAX_DECIMALS` decimals: a magnitude below that prints as ``0``)."""
     if value is None:
         return "—"
     try:
@@ -243,8 +248,11 @@ def format_number(value, significant: int = 3) -> str:
     if x == 0:
         return "0"
     magnitude = math.floor(math.log10(abs(x)))
-    decimals = max(significant - 1 - magnitude, 0)
-    return f"{round(x, decimals):,.{decimals}f}"
+    decimals = min(max(significant - 1 - magnitude, 0), MAX_DECIMALS)
+    rounded = round(x, decimals)
+    if rounded == 0:
+        return "0"
+    return f"{rounded:,.{decimals}f}"
 
 
 def format_quantity(value, metric: str, si_unit: str, system: str, significant: int = 3) -> str:
@@ -276,6 +284,15 @@ def to_zone(times: pd.DatetimeIndex | pd.Series, zone: str):
     if isinstance(times, pd.Series):
         return times.dt.tz_convert(zone)
     return times.tz_convert(zone)
+
+
+def spans_to_zone(spans: pd.DataFrame, zone: str) -> pd.DataFrame:
+    """Spans (``start``, ``end`` in UTC) on the wall clock of ``zone``; empty stays empty."""
+    out = spans.copy()
+    if len(out):
+        for column in ("start", "end"):
+            out[column] = pd.DatetimeIndex(out[column]).tz_convert(zone)
+    return out
 
 
 def time_axis_title(zone: str) -> str:

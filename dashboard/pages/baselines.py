@@ -222,9 +222,7 @@ async def draw(context_data, metric, preset, choice_data, *, client: LostworkCli
     )
     if results.has(STEADY_METRIC):
         spans = figures.state_spans(results.mean[STEADY_METRIC], results.bucket_seconds)
-        spans["start"] = pd.DatetimeIndex(spans["start"]).tz_convert(zone)
-        spans["end"] = pd.DatetimeIndex(spans["end"]).tz_convert(zone)
-        figures.add_spans(fig, spans)
+        figures.add_spans(fig, fmt.spans_to_zone(spans, zone))
     fig.update_layout(height=300, dragmode="zoom", uirevision=f"{context.slug}-{metric}-{preset}")
     return fig, shown
 

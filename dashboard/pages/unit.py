@@ -369,10 +369,7 @@ def _spans(own: Results, base: Results | None, metric: str, zone: str) -> pd.Dat
     spans = (
         pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=figures.SPAN_COLUMNS)
     )
-    for column in ("start", "end"):
-        if len(spans):
-            spans[column] = pd.DatetimeIndex(spans[column]).tz_convert(zone)
-    return spans
+    return fmt.spans_to_zone(spans, zone)
 
 
 def _baseline_figures(decision_interval, base, names, metric, name, si_unit, system, zone, x_title):

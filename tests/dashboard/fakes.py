@@ -98,6 +98,8 @@ def value(metric: str, minutes: float) -> float:
         "headroom_recoverable_w": 1.5e6,
         "headroom_cost_per_h": 51.0,
         "drift_cost_per_h": 12.5,
+        # steady except while the load swings fastest, a few hours a day
+        "steady": 1.0 if abs(math.cos(2 * math.pi * minutes / 1440.0)) < 0.9 else 0.0,
     }
     return table[metric]
 
@@ -150,7 +152,10 @@ class FakeClient(LostworkClient):
                 declared += [
                     {"metric": prefix + "eta_1", "unit": "1", "label": prefix}
                     for prefix in BASELINE_PREFIXES
-                ] + [{"metric": "headroom_recoverable_w", "unit": "W", "label": "Headroom"}]
+                ] + [
+                    {"metric": "headroom_recoverable_w", "unit": "W", "label": "Headroom"},
+                    {"metric": "steady", "unit": "1", "label": "Steady state"},
+                ]
             return {"unit": parts[1], "kind": found["kind"], "metrics": declared}
         if parts[0] == "units" and parts[-1] == "latest":
             return self._latest(parts[1])

@@ -89,6 +89,9 @@ def _readings() -> dict:
     """
     n = DAYS * 1440
     i = np.arange(n)
+    # 0.3 % meter noise on the gas and steam flows, so the baseline has residuals
+    rng = np.random.default_rng(2026)
+    noise = 1 + 0.003 * rng.standard_normal((2, n))
     day = np.sin(2 * np.pi * i / 1440)
     load = 1 + 0.08 * day
     fouling = np.where(i > (DAYS - 1) * 1440, 1 + 0.03 * (i - (DAYS - 1) * 1440) / 1440, 1.0)
@@ -105,9 +108,9 @@ def _readings() -> dict:
     series = {tag: [v] * n for tag, v in constant.items()}
     series |= {
         "AMB-T": list(8 + 4 * day),
-        "GAS-FLOW": list(2150 * load * fouling),
-        "FW-FLOW": list(28 * load),
-        "MS-FLOW": list(28 * load),
+        "GAS-FLOW": list(2150 * load * fouling * noise[0]),
+        "FW-FLOW": list(28 * load * noise[1]),
+        "MS-FLOW": list(28 * load * noise[1]),
         "GEN-P": list(3340 * load),
     }
     return {"plant": "tarnwick-mill", "times": times, "series": series}
@@ -358,9 +361,45 @@ def test_acknowledge_an_alert(server, browser):
     browser.assert_no_console_errors()
 
 
-def test_baselines_page(server, browser):
+def test_fit_and_activate_a_baseline_then_see_the_drift(server, browser):
     page = browser.page
     page.goto(server.base + "/baselines?unit=boiler-1")
-    page.wait_for_selector("#baselines-state .lw-empty, #baselines-table td")
+    page.wait_for_selector("#baselines-chart .scatterlayer .trace")
+    page.wait_for_selector("#baselines-state >> text=No baseline fitted yet")
+    # the reference period: drag across the first day (before the fouling)
+    box = page.locator("#baselines-chart .nsewdrag").bounding_box()
+    before = page.inner_text("#baselines-period-text")
+    y = box["y"] + box["height"] / 2
+    page.mouse.move(box["x"] + 0.02 * box["width"], y)
+    page.mouse.down()
+    page.mouse.move(box["x"] + 0.45 * box["width"], y, steps=8)
+    page.mouse.up()
+    page.wait_for_function(
+        "b => document.querySelector('#baselines-period-text').innerText !== b", arg=before
+    )
+    page.click("#baselines-fit")
+    page.wait_for_selector("#baselines-fit-result >> text=ASHRAE Guideline 14")
+    assert "Version 1 of First-law efficiency (HHV)" in _text(page, "#baselines-fit-result")
+    page.wait_for_selector("#baselines-table td >> text=First-law efficiency (HHV)")
     browser.shot("baselines")
+    page.locator("#baselines-table input[type=radio]").first.check()
+    page.click("#baselines-activate")
+    page.wait_for_selector("#baselines-activate-result >> text=Version 1 is active")
+    fitted = server.get("/api/v1/units/boiler-1/baselines")["baselines"][0]
+    assert (fitted["version"], fitted["metric"], fitted["active"]) == (1, "eta_1", True)
+    # the pipeline recomputes drift against it; the unit page then draws expected and drift
+    last = (END - pd.Timedelta(minutes=1)).isoformat().replace("+00:00", "Z")
+
+    def drift_computed() -> bool:
+        body = server.get(
+            "/api/v1/units/boiler-1/results", metrics="drift_eta_1", start=last, max_points=2
+        )
+        return any(v is not None for series in body["series"] for v in series["mean"])
+
+    _wait(drift_computed, 180)
+    page.goto(server.base + "/units/boiler-1")
+    page.wait_for_selector("#unit-main .legend >> text=First-law efficiency (HHV), expected")
+    page.wait_for_selector("#unit-drift .barlayer .trace")
+    assert page.locator("#unit-baseline-charts").is_visible()
+    browser.shot("unit-with-baseline")
     browser.assert_no_console_errors()

@@ -531,3 +531,32 @@ def test_baseline_chart_in_display_units_and_the_plant_clock():
     fig, shown = run(baselines.draw(_baseline_context(client), "eta_1", "7d", SI, client=client))
     assert fig.layout.yaxis.title.text == "First-law efficiency (HHV) [%]"
     assert shown["zone"] == "Europe/Vienna"
+    # unsteady hours shaded, on the plant's clock
+    shade = next(t for t in fig.data if (t.name or "").startswith("Not steady"))
+    assert len(shade.x) >= 7
+
+
+def test_unsteady_hours_shaded_on_the_unit_page_too():
+    main, *_ = _draw(fakes.FakeClient(baseline=True), preset="24h")
+    assert any((t.name or "").startswith("Not steady") for t in main.data)
+
+
+def test_steady_all_along_shades_nothing():
+    class Steady(fakes.FakeClient):
+        def _results(self, slug, params):
+            body = super()._results(slug, params)
+            for series in body["series"]:
+                if series["metric"] == "steady":
+                    series["mean"] = [1.0] * len(series["mean"])
+            return body
+
+    fig, _ = run(
+        baselines.draw(
+            _baseline_context(Steady(baseline=True)),
+            "eta_1",
+            "7d",
+            SI,
+            client=Steady(baseline=True),
+        )
+    )
+    assert not [t for t in fig.data if (t.name or "").startswith("Not steady")]

@@ -52,6 +52,20 @@ def problem(exc: Exception, *, doing: str) -> html.Div:
         return empty_state(
             "Not available on this server", f"The server has no endpoint for {doing}."
         )
+    if isinstance(exc, ApiError) and exc.status in (401, 403):
+        return html.Div(
+            [
+                html.Div(f"Could not {doing}: {exc.title}", className="lw-problem-title"),
+                html.P(f"HTTP {exc.status}. {exc.detail or ''}".strip()),
+                html.P(
+                    "The dashboard reads the API with its own key: start the server with "
+                    "LOSTWORK_DASHBOARD_API_KEY set to a key with the read scope (ingest to "
+                    "upload, admin to fit baselines), or pass --key to python -m dashboard."
+                ),
+            ],
+            className="lw-problem",
+            role="alert",
+        )
     if isinstance(exc, ApiError):
         detail = exc.detail or ""
         return html.Div(

@@ -106,6 +106,17 @@ def test_overview_counts_open_alerts_when_the_server_has_them():
     assert "Open alerts 2" in text_of(tiles)
 
 
+def test_a_refused_key_says_how_to_give_the_dashboard_one():
+    class Refused(fakes.FakeClient):
+        async def _call(self, method, path, *, optional=False, **kwargs):
+            raise ApiError(401, "Unauthorized", "missing API key")
+
+    tiles, data, _, _ = run(overview.refresh(SI, None, client=Refused()))
+    assert data == []
+    assert "LOSTWORK_DASHBOARD_API_KEY" in text_of(tiles)
+    assert "Could not load the units: Unauthorized" in text_of(tiles)
+
+
 def test_overview_without_units_says_what_to_do():
     tiles, data, _, _ = run(overview.refresh(SI, None, client=fakes.FakeClient(empty=True)))
     assert data == []

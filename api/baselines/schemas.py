@@ -267,6 +267,20 @@ class AlarmRead(BaseModel):
     """Signed, in the metric's unit (estimated_shift x residual standard deviation)."""
 
 
+class EpisodeRead(BaseModel):
+    """The series of same-side alarms the last alarm belongs to: the chart restarts at
+    zero after every alarm, so a persisting shift alarms again and again."""
+
+    side: Literal["upper", "lower"]
+    shift_start: dt.datetime | None
+    """Where the shift began: the start of the run of the series' first alarm."""
+    first_alarm: dt.datetime
+    alarms: int
+    complete: bool
+    """False when the series reaches back further than 31 days (it may have begun
+    earlier)."""
+
+
 class MetricDrift(BaseModel):
     metric: str
     version: int
@@ -276,6 +290,8 @@ class MetricDrift(BaseModel):
     """CUSUM alarms within the range."""
     last_alarm: AlarmRead | None
     """The latest alarm within the range."""
+    episode: EpisodeRead | None
+    """The alarm series of ``last_alarm``, with the interval its shift began."""
 
 
 class Totals(BaseModel):

@@ -22,7 +22,7 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-from sqlalchemy import func, select, update
+from sqlalchemy import exists, func, select, update
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
@@ -560,6 +560,85 @@ class MetricState:
     checkpoint: ChartCheckpoint | None
     alarms: int
     last_alarm: DriftEvent | None
+    episode: Episode | None = None
+
+
+@dataclass
+class Episode:
+    """The uninterrupted series of same-side CUSUM alarms the last alarm belongs to."""
+
+    side: str
+    shift_start_ms: int | None
+    """Where the first alarm's run began: the shift began there."""
+    first_alarm_ms: int
+    alarms: int
+    complete: bool
+    """False when the series reaches back beyond :data:`EPISODE_LOOKBACK_MS`."""
+
+
+EPISODE_LOOKBACK_MS = 31 * 86_400_000
+"""Furthest back the alarm series of an episode is followed. [ms]"""
+
+
+def episode_of(session: Session, row: Baseline, last: DriftEvent) -> Episode:
+    """Follow the last alarm's series back: with the chart reset at every alarm, a shift
+    that persists alarms again and again, each new run beginning at the very first
+    observed interval after the previous alarm. The series ends (going back) at an alarm
+    on the other side or at a run that began later than that: the chart had come back
+    to zero in between."""
+    lower = last.alarm_ms - EPISODE_LOOKBACK_MS
+    events = session.execute(
+        select(DriftEvent.alarm_ms, DriftEvent.side, DriftEvent.shift_start_ms)
+        .where(
+            DriftEvent.unit_id == last.unit_id,
+            DriftEvent.metric == last.metric,
+            DriftEvent.baseline_id == row.id,
+            DriftEvent.alarm_ms >= lower,
+            DriftEvent.alarm_ms <= last.alarm_ms,
+        )
+        .order_by(DriftEvent.alarm_ms)
+    ).all()
+    first = len(events) - 1
+    if first > 0:
+        drift_name = names.metric_names(row.metric)["drift"]
+        data = load_frame(
+            session,
+            last.unit_id,
+            [drift_name, names.STEADY, FLAGS_METRIC],
+            int(events[0].alarm_ms),
+            int(last.alarm_ms) + 1,
+        )
+        seen = charts.observed(data[names.STEADY].to_numpy(), data[FLAGS_METRIC].to_numpy())
+        seen &= np.isfinite(data[drift_name].to_numpy(dtype=float))
+        times = data.index.to_numpy(dtype=np.int64)[seen]
+        while first > 0:
+            prev, cur = events[first - 1], events[first]
+            after = int(np.searchsorted(times, prev.alarm_ms, side="right"))
+            if prev.side != last.side or after >= len(times) or cur.shift_start_ms != times[after]:
+                break
+            first -= 1
+    return Episode(
+        side=last.side,
+        shift_start_ms=events[first].shift_start_ms,
+        first_alarm_ms=int(events[first].alarm_ms),
+        alarms=len(events) - first,
+        complete=first > 0 or not _alarms_before(session, row, last, lower),
+    )
+
+
+def _alarms_before(session: Session, row: Baseline, last: DriftEvent, t_ms: int) -> bool:
+    return bool(
+        session.scalar(
+            select(
+                exists().where(
+                    DriftEvent.unit_id == last.unit_id,
+                    DriftEvent.metric == last.metric,
+                    DriftEvent.baseline_id == row.id,
+                    DriftEvent.alarm_ms < t_ms,
+                )
+            )
+        )
+    )
 
 
 @dataclass
@@ -670,6 +749,7 @@ def drift_summary(
         )
         count = session.scalar(select(func.count()).select_from(events.subquery())) or 0
         last_alarm = session.scalars(events.order_by(DriftEvent.alarm_ms.desc()).limit(1)).first()
+        episode = None if last_alarm is None else episode_of(session, row, last_alarm)
         states.append(
             MetricState(
                 row,
@@ -678,6 +758,7 @@ def drift_summary(
                 checkpoint=checkpoint,
                 alarms=int(count),
                 last_alarm=last_alarm,
+                episode=episode,
             )
         )
     prof = profile(unit.kind)

@@ -304,6 +304,15 @@ def drift_summary(
                     "h": chart["h"],
                 },
                 "alarms": state.alarms,
+                "episode": None
+                if state.episode is None
+                else {
+                    "side": state.episode.side,
+                    "shift_start": _time(state.episode.shift_start_ms),
+                    "first_alarm": _time(state.episode.first_alarm_ms),
+                    "alarms": state.episode.alarms,
+                    "complete": state.episode.complete,
+                },
                 "last_alarm": None
                 if alarm is None
                 else {

@@ -247,6 +247,16 @@ def test_activation_recompute_and_live_chunks_chart_as_the_engine_does(
     assert state["alarms"] == len(charts.events)
     assert state["last_alarm"]["at"] == iso(int(charts.events["alarm_at"].iloc[-1]))
     assert state["current"]["t"] == iso(T0 + (HIGH - 1) * MIN)
+    # Reset after every alarm, the chart alarms again and again while the shift lasts;
+    # the series leads back to where the shift began.
+    assert state["episode"] == {
+        "side": "lower",
+        "shift_start": iso(T0 + STEP * MIN),
+        "first_alarm": iso(int(first["alarm_at"])),
+        "alarms": len(lower),
+        "complete": True,
+    }
+    assert len(lower) > 5
 
     # A recompute of an earlier range continues from the checkpoint before it (replaying
     # the stored drift in between) and charts that range exactly as before.

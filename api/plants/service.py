@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from pydantic import ValidationError
-from sqlalchemy import delete, func, select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session, selectinload
 
 from api import measure
@@ -41,6 +41,7 @@ from api.plants.models import Fuel, Plant, Tag, Unit, UnitBinding
 from api.plants.quantities import canonical_si_unit, to_si_number
 from api.readings.dirty import align, mark_units_dirty, reading_range
 from api.results.models import ResultValue
+from api.results.store import delete_results
 from engine.catalogue import UnitKind, all_kinds
 from engine.fuels import FuelProperties
 
@@ -506,7 +507,7 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
 
     removed = [u for slug, u in units.items() if slug not in r.doc.units]
     for unit in removed:
-        session.execute(delete(ResultValue).where(ResultValue.unit_id == unit.id))
+        delete_results(session, [unit.id])
         session.delete(unit)
         report.deleted.append(f"unit {unit.slug}")
     session.flush()
@@ -518,9 +519,8 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
 
     live = {slug: u for slug, u in units.items() if slug in r.doc.units}
     if interval_changed:
-        session.execute(
-            delete(ResultValue).where(ResultValue.unit_id.in_([u.id for u in live.values()]))
-        )
+        # Through the results store, so the rollups go with the results they summarise.
+        delete_results(session, [u.id for u in live.values()])
     if all_units_dirty:
         dirty |= {u.id for u in live.values()}
     spans = []

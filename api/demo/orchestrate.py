@@ -10,10 +10,11 @@ Steps, each printed with its duration:
 4. backfill ``days`` of history through the ingest service in this process (the same
    validation, conversion and queueing as ``POST /api/v1/readings/columnar``, without
    HTTP: the server is not up yet);
-5. compute it with the pipeline worker in this process, showing progress (or, with
-   ``progressive``, leave it to the server's embedded worker and serve at once);
-6. fit baselines on the clean reference period — a seam: the baselines service does not
-   exist in this build yet (see :func:`fit_baselines`);
+5. compute it with the pipeline worker in this process, showing progress, in two parts:
+   the clean reference period first; then baselines are fitted on it and activated
+   (:data:`BASELINES`); then the rest, computed once with expected values, drift and
+   CUSUM (with ``progressive``, everything is left to the server's embedded worker, no
+   baselines are fitted, and the server starts at once);
 7. serve the API and dashboard, with the live simulator sending a sample every
    ``step_s`` through the REST API, until Ctrl-C stops everything.
 """
@@ -164,20 +165,85 @@ def compute_backlog(
     return done
 
 
-def fit_baselines(session_factory: sessionmaker[Session], start_ms: int, end_ms: int) -> str:
-    """Fit and activate baselines on the clean reference period.
+BASELINES: tuple[tuple[str, str, tuple[str, ...]], ...] = (
+    ("gb1", "eta_1", ("ambient_temperature",)),
+    ("gb2", "eta_1", ("ambient_temperature",)),
+    ("bb3", "eta_1", ("ambient_temperature",)),
+    ("tg1", "section1_isentropic_efficiency", ("steam_rate_kg_per_kwh",)),
+    ("tg2", "section1_isentropic_efficiency", ()),
+)
+"""(unit, metric, extra regressors) the demo fits on the reference period; load is the
+kind's own load column. The boilers' stack temperature follows the weather a little, so
+their efficiency gets the ambient temperature as a second regressor. tg1's first section
+follows its inlet flow, which its output alone does not fix (the extraction takes a
+varying share): the steam rate adds it (R2 0.83 -> 0.94 on 21 demo days)."""
 
-    A seam: issue 5's baselines service (``api.baselines``) is not part of this build.
-    When it lands, this is where the demo fits ``eta_1`` of the boilers and the section
-    efficiencies of the turbines on [start, end) and activates them; the plant file's
-    drift and CUSUM rules then fire on the faults.
-    """
+
+def reference_end(start_ms: int, days: float, interval_s: int) -> int:
+    """End of the default schedule's clean reference period, on the interval grid."""
+    step = interval_s * 1000
+    length = int(clean_period_s(days)[1] * 1000)
+    return start_ms + -(-length // step) * step
+
+
+def fit_baselines(session_factory: sessionmaker[Session], start_ms: int, end_ms: int) -> list[str]:
+    """Fit and activate :data:`BASELINES` on [start, end), their charts starting at
+    ``end`` (the results before it need no recompute); one line per baseline."""
     if importlib.util.find_spec("api.baselines.service") is None:
-        return (
+        return [
             f"baselines: not available in this build; the clean reference period is "
             f"{_utc(start_ms)} to {_utc(end_ms)}"
+        ]
+    from api.baselines import service
+    from api.core.problems import ProblemError
+
+    lines = [f"baselines on the reference period {_utc(start_ms)} to {_utc(end_ms)}:"]
+    for unit, metric, regressors in BASELINES:
+        request = service.FitRequest(
+            metric=metric,
+            start_ms=start_ms,
+            end_ms=end_ms,
+            regressors=regressors,
+            note="lostwork demo: the clean reference period",
+            activate=True,
+            recompute_from_ms=end_ms,
         )
-    return "baselines: the baselines service is installed but the demo does not call it yet"
+        with session_factory() as session:
+            try:
+                row, _ = service.fit(
+                    session=session, unit_slug=unit, request=request, created_by="demo"
+                )
+            except ProblemError as exc:
+                lines.append(f"  {unit} {metric}: not fitted: {exc.detail}")
+                continue
+            model = row.model or {}
+            cv_rmse = model.get("cv_rmse")
+            lines.append(
+                f"  {unit} {metric}: version {row.version}, {model.get('form')} in "
+                f"{row.load}, n = {model.get('n')}, CV(RMSE) "
+                f"{'n/a' if cv_rmse is None else f'{100 * float(cv_rmse):.2f} %'}, active"
+            )
+    return lines
+
+
+def _compute_with_progress(
+    session_factory: sessionmaker[Session], stop: threading.Event, unit_days: float
+) -> None:
+    began = time.perf_counter()
+    last = [began]
+
+    def progress(done: int) -> None:
+        now = time.perf_counter()
+        if now - last[0] > 10.0:
+            last[0] = now
+            left = (now - began) / done * max(0.0, unit_days - done)
+            _echo(
+                f"  computing: {done} of about {unit_days:.0f} unit-days in "
+                f"{now - began:.0f} s, about {left / 60:.0f} min left ..."
+            )
+
+    chunks = compute_backlog(session_factory, stop, progress)
+    _echo(f"compute: {chunks} unit-day chunks in {time.perf_counter() - began:.1f} s")
 
 
 def alert_summary(session_factory: sessionmaker[Session]) -> list[str]:
@@ -258,35 +324,30 @@ def run_demo(settings: Settings, plan: DemoPlan) -> None:
         for fault in schedule:
             _echo(f"  {_utc(start_ms + int(fault.start_s * 1000))}  {fault.describe()}")
 
-        began = time.perf_counter()
-        filled = backfill(sim, ServiceSink(factory, sim.slug), start_ms, end_ms)
-        _echo(
-            f"backfill: {filled.totals.received:,} readings stored in {filled.seconds:.1f} s "
-            f"(rejected {filled.totals.rejected})"
+        # Without --progressive: the clean reference period first, computed; baselines
+        # fitted on it and activated; then the rest, computed once with the baselines
+        # (expected values, drift and CUSUM from the end of the reference period).
+        clean_end = reference_end(start_ms, plan.days, sim.interval_s)
+        phases = (
+            [(start_ms, end_ms)]
+            if plan.progressive
+            else [(start_ms, clean_end), (clean_end, end_ms)]
         )
-        if not plan.progressive and not stop.is_set():
-            began = time.perf_counter()
-            last = [began]
-
-            def progress(done: int) -> None:
-                now = time.perf_counter()
-                if now - last[0] > 10.0:
-                    last[0] = now
-                    total = len(sim.unit_fuel) * max(1.0, plan.days)
-                    left = (now - began) / done * max(0.0, total - done)
-                    _echo(
-                        f"  computing: {done} of about {total:.0f} unit-days in "
-                        f"{now - began:.0f} s, about {left / 60:.0f} min left ..."
-                    )
-
-            chunks = compute_backlog(factory, stop, progress)
-            _echo(f"compute: {chunks} unit-day chunks in {time.perf_counter() - began:.1f} s")
-            clean = clean_period_s(plan.days)
+        for number, (lo, hi) in enumerate(phases):
+            if stop.is_set():
+                break
+            filled = backfill(sim, ServiceSink(factory, sim.slug), lo, hi)
             _echo(
-                fit_baselines(
-                    factory, start_ms + int(clean[0] * 1000), start_ms + int(clean[1] * 1000)
-                )
+                f"backfill {_utc(lo)} to {_utc(hi)}: {filled.totals.received:,} readings "
+                f"stored in {filled.seconds:.1f} s (rejected {filled.totals.rejected})"
             )
+            if plan.progressive:
+                break
+            _compute_with_progress(factory, stop, len(sim.unit_fuel) * (hi - lo) / 86_400_000)
+            if number == 0 and not stop.is_set():
+                for line in fit_baselines(factory, start_ms, clean_end):
+                    _echo(line)
+        if not plan.progressive and not stop.is_set():
             for line in alert_summary(factory):
                 _echo(line)
         if stop.is_set():

@@ -151,7 +151,13 @@ def test_demo_prepares_computes_and_subscribes_the_receiver(tmp_path, capsys) ->
     run_demo(settings, plan)
     out = capsys.readouterr().out
     assert "plant quellmoor-utilities: 5 unit(s), 50 tag(s), 11 rule(s), 2 fuel(s)" in out
-    assert "backfill: 7,125 readings stored" in out  # 144 instants x 50 tags - 5 x 15 in the gap
+    stored = [
+        int(line.split(": ")[1].split(" readings")[0].replace(",", ""))
+        for line in out.splitlines()
+        if line.startswith("backfill ")
+    ]
+    assert len(stored) == 2 and sum(stored) == 7_125  # 144 x 50 readings - 5 x 15 in the gap
+    assert "baselines on the reference period" in out
     assert "admin API key (shown once): lw_" in out
     engine = create_db_engine(url)
     factory = make_session_factory(engine)

@@ -370,7 +370,7 @@ of selecting columns dominates); above it only the result columns are (bytes dom
 
 def _as_array(frame: pd.DataFrame, columns: Sequence[str]) -> np.ndarray:
     """Columns of a model's output as one C-contiguous float array, shape (columns, rows)."""
-    names = list(frame.columns)
+    names = frame.columns.tolist()
     if len(frame) < _WHOLE_FRAME_ROWS:
         try:
             positions = [names.index(name) for name in columns]

@@ -52,7 +52,7 @@ from api.plants.models import Unit
 from api.plants.service import UnitConfig, get_unit, load_unit_config
 from api.readings.dirty import mark_units_dirty, reading_range
 from api.results.models import ResultValue
-from api.results.service import rfc3339
+from api.results.service import choose_bucket_ms, rfc3339
 from engine import baseline as engine_baseline
 from engine.catalogue import all_kinds
 from engine.cost import cumulative
@@ -456,15 +456,18 @@ def _nanmean(values: np.ndarray) -> float:
 
 
 def _buckets(
-    t: np.ndarray, columns: list[np.ndarray], interval_ms: int, max_points: int
+    t: np.ndarray,
+    columns: list[np.ndarray],
+    span: tuple[int, int],
+    interval_ms: int,
+    max_points: int,
 ) -> tuple[int | None, np.ndarray, list[np.ndarray]]:
-    """Epoch-aligned bucket means (NaN-skipping) when there are more rows than points."""
-    if len(t) <= max_points:
+    """Bucket means (NaN-skipping) on the results API's epoch-aligned buckets
+    (:func:`api.results.service.choose_bucket_ms`) when the range holds more intervals
+    than ``max_points``."""
+    bucket = choose_bucket_ms(span[0], span[1], interval_ms, max_points)
+    if bucket is None or len(t) == 0:
         return None, t, columns
-    span = int(t[-1] - t[0]) + interval_ms
-    bucket = max(interval_ms, -(-span // max_points // interval_ms) * interval_ms)
-    while (int(t[-1]) // bucket - int(t[0]) // bucket + 1) > max_points:
-        bucket += interval_ms
     keys = (t // bucket) * bucket
     frame = pd.DataFrame({i: c for i, c in enumerate(columns)})
     means = frame.groupby(keys).mean()
@@ -539,7 +542,7 @@ def compare(
         "max_abs": float(np.abs(diff).max()) if diff.size else None,
     }
     bucket, t, (act, ea, eb) = _buckets(
-        rows.to_numpy(dtype=np.int64), [actual, *expected], interval_ms, max_points
+        rows.to_numpy(dtype=np.int64), [actual, *expected], (start, end), interval_ms, max_points
     )
     return ComparisonResult(
         unit, row_a.metric, start, end, sides[0], sides[1], difference, bucket, t, act, ea, eb

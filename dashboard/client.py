@@ -71,6 +71,23 @@ class Results:
     def has(self, metric: str) -> bool:
         return metric in self.mean.columns and bool(self.mean[metric].notna().any())
 
+    def period_means(self) -> dict[str, float]:
+        """Mean of each metric over the whole range, from the bucket means weighted by the
+        intervals each holds (equal weights when the server gives no counts); metrics
+        without a value are left out."""
+        out = {}
+        for metric in self.metrics:
+            values = self.mean[metric]
+            weights = (
+                self.count[metric].reindex(values.index).fillna(0.0)
+                if self.count is not None and metric in self.count
+                else pd.Series(1.0, index=values.index)
+            )
+            ok = values.notna() & (weights > 0)
+            if ok.any():
+                out[metric] = float((values[ok] * weights[ok]).sum() / weights[ok].sum())
+        return out
+
     def series(self, metric: str) -> pd.DataFrame:
         """Columns ``mean``, ``min``, ``max`` of one metric (KeyError if absent)."""
         return pd.DataFrame(

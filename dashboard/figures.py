@@ -425,7 +425,7 @@ def waterfall_steps(
     return pd.DataFrame(rows, columns=["category", "label", "base", "value"])
 
 
-def wrap(label: str, width: int = 14) -> str:
+def wrap(label: str, width: int = 16) -> str:
     """Break a category label into lines of about ``width`` characters (``<br>``)."""
     lines: list[str] = []
     for word in label.split():
@@ -515,13 +515,16 @@ def exergy_sankey(
     terms: Sequence[tuple[str, str, float]],
     *,
     unit: str,
+    min_share: float = 0.02,
 ) -> go.Figure:
     """An exergy-flow (Grassmann-style) diagram: one input splitting into every outflow.
 
-    Link widths are proportional to the flows (negative mismatch terms are drawn at
-    their magnitude and named as such); node labels carry value and unit.
+    Link widths are proportional to the flows (a negative term is drawn at its
+    magnitude); node labels carry value and unit. Destructions and losses each smaller
+    than ``min_share`` of the input [-] are drawn together as one "smaller parts" flow,
+    so the labels stay legible (the table beside the diagram lists each part).
     """
-    flows = [t for t in terms if t[2] is not None and np.isfinite(t[2])]
+    flows = sankey_flows(input_value, terms, min_share)
     labels = [f"{input_label}<br>{format_number(input_value, 4)} {unit}"]
     labels += [f"{label}<br>{format_number(value, 4)} {unit}" for _, label, value in flows]
     colours = [CATEGORY_COLOURS["input"]] + [CATEGORY_COLOURS[c] for c, _, _ in flows]
@@ -553,6 +556,23 @@ def exergy_sankey(
         margin={"l": 16, "r": 16, "t": 16, "b": 16},
     )
     return fig
+
+
+def sankey_flows(
+    input_value: float, terms: Sequence[tuple[str, str, float]], min_share: float
+) -> list[tuple[str, str, float]]:
+    """Terms with the small ones (|value| < ``min_share`` x input; never the product)
+    merged into one ``"Smaller parts (n)"`` term when there are two or more: coloured as
+    their category when they share one, grey otherwise."""
+    finite = [t for t in terms if t[2] is not None and np.isfinite(t[2])]
+    limit = abs(input_value) * min_share
+    small = [t for t in finite if t[0] != "product" and abs(t[2]) < limit]
+    if len(small) < 2:
+        return finite
+    kept = [t for t in finite if t not in small]
+    categories = {t[0] for t in small}
+    category = categories.pop() if len(categories) == 1 else "mismatch"
+    return [*kept, (category, f"Smaller parts ({len(small)})", float(sum(t[2] for t in small)))]
 
 
 def empty_figure(message: str, *, height: int = 240) -> go.Figure:

@@ -14,6 +14,7 @@ from dash.dash_table.Format import Format, Scheme
 from dashboard import formatting as fmt
 from dashboard.client import (
     DRIFT_COST_METRIC,
+    HEADROOM_COST_METRIC,
     HEADROOM_METRIC,
     ApiError,
     LostworkClient,
@@ -36,7 +37,16 @@ REFRESH_MS = 60_000
 OPEN_STATUS = "firing"
 """Alert status counted as open (lifecycle firing -> resolved, DESIGN section 7)."""
 DRIFT_METRIC = "drift_eta_1"
-NUMERIC = ("eta_1", "eta_2", DRIFT_METRIC, HEADROOM_METRIC, DRIFT_COST_METRIC)
+NUMERIC = (
+    "eta_1",
+    "eta_2",
+    DRIFT_METRIC,
+    HEADROOM_METRIC,
+    DRIFT_COST_METRIC,
+    HEADROOM_COST_METRIC,
+)
+RECENT = pd.Timedelta(hours=1)
+"""The overview shows each unit's means over its last hour of results."""
 
 
 def layout(**_kwargs: Any) -> html.Div:
@@ -46,15 +56,26 @@ def layout(**_kwargs: Any) -> html.Div:
                 [
                     html.H1("Plant overview"),
                     html.P(
-                        "Each unit's latest interval. Sort by any column; open a unit for its "
-                        "trends, baseline and drift.",
+                        "Each unit over its last hour of results. Sort by any column; open a "
+                        "unit for its trends, baseline and drift.",
                         className="lw-lede",
                     ),
                 ]
             ),
             dcc.Interval(id=TICK, interval=REFRESH_MS),
             dcc.Loading(html.Div(id=TILES), type="dot", color="var(--lw-tide)"),
-            cards.card(None, data_table(TABLE, markdown_options={"link_target": "_self"})),
+            cards.card(
+                None,
+                data_table(
+                    TABLE,
+                    markdown_options={"link_target": "_self"},
+                    style_cell_conditional=[
+                        {"if": {"column_type": "text"}, "textAlign": "left"},
+                        {"if": {"column_id": "unit"}, "minWidth": "150px"},
+                        {"if": {"column_id": "last"}, "minWidth": "150px"},
+                    ],
+                ),
+            ),
             html.Div(id=NOTE, className="lw-note"),
         ]
     )
@@ -77,7 +98,7 @@ async def fetch(client: LostworkClient) -> Snapshot:
     plant_slugs = sorted(set(units["plant"].dropna()))
     plants, latest = await asyncio.gather(
         asyncio.gather(*(client.plant(p) for p in plant_slugs)),
-        asyncio.gather(*(_latest_or_none(client, s) for s in slugs)),
+        asyncio.gather(*(_recent(client, s) for s in slugs)),
     )
     try:
         alerts = await client.alerts(status=OPEN_STATUS)
@@ -93,13 +114,27 @@ async def fetch(client: LostworkClient) -> Snapshot:
     )
 
 
-async def _latest_or_none(client: LostworkClient, slug: str) -> dict[str, Any] | None:
+async def _recent(client: LostworkClient, slug: str) -> dict[str, Any] | None:
+    """The unit's latest interval, its values replaced by means over the last
+    :data:`RECENT` where there are some (one interval may be unsteady or outside the
+    baseline's range, and so have no drift of its own)."""
     try:
-        return await client.latest(slug)
+        latest = await client.latest(slug)
     except ApiError as exc:
         if exc.status == 404:  # a unit with no result yet
             return None
         raise
+    if latest["t"] is None:
+        return latest
+    names = {m.get("metric") for m in await client.metrics(slug)}
+    wanted = [m for m in NUMERIC if m in names]
+    if not wanted:
+        return latest
+    end = latest["t"] + pd.Timedelta(minutes=1)
+    found = await client.results(slug, end - RECENT, end, wanted, max_points=2)
+    means = found.period_means()
+    units = {**latest["units"], **found.units}
+    return {**latest, "values": {**latest["values"], **means}, "units": units}
 
 
 def _unit_of(latest: dict[str, Any], metric: str, default: str) -> str:
@@ -131,6 +166,7 @@ def rows(snapshot: Snapshot, choice: prefs.Prefs, now=None) -> tuple[list[dict],
             "age_min": _minutes(fmt.age_seconds(latest.get("t"), now)) if latest else None,
             "alerts": None if snapshot.open_alerts is None else snapshot.open_alerts.get(slug, 0),
             "cost": _number(values.get(DRIFT_COST_METRIC)),
+            "headroom_cost": _number(values.get(HEADROOM_COST_METRIC)),
         }
         for metric in ("eta_1", "eta_2", DRIFT_METRIC, HEADROOM_METRIC):
             si_unit = _unit_of(latest, metric, _DEFAULT_UNITS[metric])
@@ -167,7 +203,8 @@ def _columns(
         numeric("eta_2", f"η₂ [{labels.get('eta_2', '%')}]", 1),
         numeric(DRIFT_METRIC, f"η₁ drift [{labels.get(DRIFT_METRIC, '% points')}]", 2),
         numeric(HEADROOM_METRIC, f"Headroom [{labels.get(HEADROOM_METRIC, 'MW')}]", 2),
-        numeric("cost", f"Cost of drift [{currency}/h]", 0),
+        numeric("cost", f"Cost of drift [{currency}/h]", 1),
+        numeric("headroom_cost", f"Headroom value [{currency}/h]", 1),
         {"id": "last", "name": "Latest result", "type": "text"},
         numeric("age_min", "Age [min]", 0),
     ]
@@ -196,6 +233,7 @@ def summary(snapshot: Snapshot, table: list[dict]) -> html.Div:
     """The key figures above the table."""
     reporting = sum(1 for r in table if r["age_min"] is not None)
     costs = [r["cost"] for r in table if r["cost"] is not None]
+    headroom = [r["headroom_cost"] for r in table if r["headroom_cost"] is not None]
     currencies = {p.get("currency") for p in snapshot.plants.values() if p.get("currency")}
     currency = currencies.pop() if len(currencies) == 1 else None
     ages = [r["age_min"] for r in table if r["age_min"] is not None]
@@ -206,10 +244,15 @@ def summary(snapshot: Snapshot, table: list[dict]) -> html.Div:
     return cards.tiles(
         cards.tile("Units", f"{len(table)}", sub=_units_line(snapshot, reporting)),
         cards.tile(
-            "Cost of drift now",
+            "Cost of drift, last hour",
             fmt.format_money_per_hour(sum(costs), currency) if costs else "—",
-            sub=(f"most: {_plain(worst['unit'])}" if costs and worst else "no baseline fitted yet"),
+            sub=(f"most: {_plain(worst['unit'])}" if costs and worst else "none in the last hour"),
             tone="warn" if costs and sum(costs) > 0 else "plain",
+        ),
+        cards.tile(
+            "Headroom value",
+            fmt.format_money_per_hour(sum(headroom), currency) if headroom else "—",
+            sub="to the best demonstrated" if headroom else "none in the last hour",
         ),
         cards.tile(
             "Open alerts",

@@ -86,16 +86,14 @@ def layout(unit: str | None = None, **_kwargs: Any) -> html.Div:
             ),
             html.Div(id=NOTE, className="lw-note"),
             dcc.Loading(html.Div(id=TILES), type="dot"),
+            cards.card("Step by step", dcc.Graph(id=WATERFALL, config={"displaylogo": False})),
             html.Div(
                 [
-                    cards.card(
-                        "Step by step", dcc.Graph(id=WATERFALL, config={"displaylogo": False})
-                    ),
                     cards.card("As flows", dcc.Graph(id=SANKEY, config={"displaylogo": False})),
+                    cards.card("The account", data_table(TABLE)),
                 ],
                 className="lw-pair",
             ),
-            cards.card("The account", data_table(TABLE)),
         ]
     )
 
@@ -142,19 +140,10 @@ async def draw(slug: str | None, preset: str | None, choice_data, *, client: Los
     return render(context, found, prefs.read(choice_data), start, end)
 
 
-def period_means(results: Results) -> dict[str, float]:
-    """Mean of each metric over the period (the server sends one bucket, or a few)."""
-    if results.empty:
-        return {}
-    return {
-        m: float(v) for m, v in results.mean.mean(numeric_only=True).items() if math.isfinite(v)
-    }
-
-
 def render(context, results: Results, choice: prefs.Prefs, start: pd.Timestamp, end: pd.Timestamp):
     """Tiles, both figures and the table, from the fetched period (pure)."""
     zone = fmt.zone_name(choice.clock, context.time_zone)
-    means = period_means(results)
+    means = results.period_means()
     account = build_account(means)
     period = f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)}"
     if account is None:

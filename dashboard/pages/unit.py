@@ -333,6 +333,11 @@ def render(
     drift, cusum, note = _baseline_figures(
         fetched.decision_interval, base, names, metric, name, si_unit, choice.system, zone, x_title
     )
+    # the three charts show the same window, whatever data it holds
+    window = [t.tz_convert(zone).tz_localize(None) for t in (start, end)]
+    for fig in (main, drift, cusum):
+        if fig.data:
+            fig.update_xaxes(range=window)
     caption = (
         f"{fmt.format_timestamp(start, zone)} to {fmt.format_timestamp(end, zone)} · "
         + timerange.describe_resolution(own.bucket_seconds, len(actual))

@@ -170,3 +170,31 @@ def test_rfc3339_requires_a_zone():
     assert rfc3339(pd.Timestamp("2026-11-30T11:00+01:00")) == "2026-11-30T10:00:00Z"
     with pytest.raises(ValueError, match="naive datetime"):
         rfc3339(pd.Timestamp("2026-11-30T11:00"))
+
+
+def test_period_means_weight_each_bucket_by_its_intervals():
+    body = {
+        "unit": "u",
+        "series": [
+            {
+                "metric": "eta_1",
+                "unit": "1",
+                "t": ["2026-11-30T10:00:00Z", "2026-11-30T10:30:00Z"],
+                "mean": [0.80, 0.90],
+                "min": [0.8, 0.9],
+                "max": [0.8, 0.9],
+                "count": [10, 30],
+            },
+            {
+                "metric": "drift_eta_1",
+                "unit": "1",
+                "t": ["2026-11-30T10:00:00Z", "2026-11-30T10:30:00Z"],
+                "mean": [None, None],
+                "min": [None, None],
+                "max": [None, None],
+                "count": [0, 0],
+            },
+        ],
+    }
+    # (10 * 0.80 + 30 * 0.90) / 40 = 0.875; a metric without values is left out
+    assert parse_results(body).period_means() == {"eta_1": pytest.approx(0.875)}

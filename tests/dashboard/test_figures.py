@@ -233,3 +233,30 @@ def test_drift_bars_coloured_by_sign():
 def test_empty_figure_says_why():
     fig = figures.empty_figure("No baseline fitted yet for this quantity.")
     assert fig.layout.annotations[0].text == "No baseline fitted yet for this quantity."
+
+
+def test_sankey_merges_small_parts_and_keeps_the_total():
+    terms = [
+        ("product", "P", 1.0),  # small, but the product is never merged
+        ("destroyed", "Combustion", 80.0),
+        ("destroyed", "Unaccounted", -0.5),
+        ("lost", "Surface", 0.5),
+        ("lost", "Unburned", 0.3),
+        ("lost", "Stack", 18.7),
+    ]
+    flows = figures.sankey_flows(100.0, terms, 0.02)
+    assert flows == [
+        ("product", "P", 1.0),
+        ("destroyed", "Combustion", 80.0),
+        ("lost", "Stack", 18.7),
+        ("mismatch", "Smaller parts (3)", pytest.approx(0.3)),  # mixed categories: grey
+    ]
+    assert sum(v for _, _, v in flows) == pytest.approx(sum(v for _, _, v in terms))
+    only_losses = [t for t in terms if t[1] != "Unaccounted"]
+    assert figures.sankey_flows(100.0, only_losses, 0.02)[-1] == (
+        "lost",
+        "Smaller parts (2)",
+        pytest.approx(0.8),
+    )
+    one_small = [t for t in terms if t[1] not in ("Unaccounted", "Surface")]
+    assert figures.sankey_flows(100.0, one_small, 0.02) == one_small

@@ -61,11 +61,21 @@ def test_navigation_marks_the_page_on_screen():
 
 
 def test_overview_rows_in_display_units_most_costly_first():
-    tiles, data, columns, note = run(overview.refresh(SI, None, client=fakes.FakeClient()))
+    client = fakes.FakeClient()
+    tiles, data, columns, note = run(overview.refresh(SI, None, client=client))
     assert [r["unit"] for r in data] == ["[Boiler 1](/units/boiler-1)", "[CHP block](/units/chp)"]
     boiler = data[0]
-    minutes = fakes.LATEST_T.value / 60e9
-    assert boiler["eta_1"] == pytest.approx(100 * fakes.value("eta_1", minutes))
+    # efficiencies are the means over the unit's last hour of results
+    asked = [c[2]["params"] for c in client.calls if c[1] == "/units/boiler-1/results"][0]
+    end = fakes.LATEST_T + pd.Timedelta(minutes=1)
+    assert (asked["start"], asked["end"]) == (
+        (end - pd.Timedelta(hours=1)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        end.strftime("%Y-%m-%dT%H:%M:%SZ"),
+    )
+    hour = run(
+        client.results("boiler-1", end - pd.Timedelta(hours=1), end, ["eta_1"], max_points=2)
+    )
+    assert boiler["eta_1"] == pytest.approx(100 * hour.period_means()["eta_1"])
     assert boiler["headroom_recoverable_w"] == pytest.approx(1.5)  # 1.5e6 W in MW
     assert boiler["cost"] == 12.5
     assert boiler["last"] == "2026-12-01 00:59 CET"  # 23:59 UTC in Vienna, winter

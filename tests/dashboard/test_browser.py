@@ -26,6 +26,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from dashboard.client import parse_results
+
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -259,8 +261,17 @@ def test_overview_shows_every_unit_with_the_apis_values(server, browser):
     rows = page.locator("#overview-table tbody tr:has(td)")
     texts = [rows.nth(i).inner_text() for i in range(rows.count())]
     boiler = next(t for t in texts if t.startswith("Boiler 1"))
-    eta_1 = server.get("/api/v1/units/boiler-1/latest")["values"]["eta_1"]
-    assert f"{100 * eta_1:.1f}" in boiler.split("\t")
+    # the overview shows each unit's mean over its last hour, as the API computes it
+    hour = parse_results(
+        server.get(
+            "/api/v1/units/boiler-1/results",
+            metrics="eta_1",
+            start=(END - pd.Timedelta(hours=1)).isoformat(),
+            end=END.isoformat(),
+            max_points=2,
+        )
+    )
+    assert f"{100 * hour.period_means()['eta_1']:.1f}" == boiler.split("\t")[2]
     assert any(t.startswith("CHP block") for t in texts)
     assert boiler.split("\t")[-1] == "1"  # the open alert of the fouling boiler
     footer = _text(page, "#shell-footer")

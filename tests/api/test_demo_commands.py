@@ -166,10 +166,12 @@ def test_demo_prepares_computes_and_subscribes_the_receiver(tmp_path, capsys) ->
         subscriptions = session.scalars(select(WebhookSubscription)).all()
     assert units == 5
     assert len(subscriptions) == 1 and subscriptions[0].url.startswith("http://127.0.0.1:")
-    # Again on the same database: nothing new to apply, the same history, one receiver.
+    # Again on the same database: nothing new to apply, the same story continued (same
+    # start and faults), one receiver.
     run_demo(settings, plan)
     again = capsys.readouterr().out
     assert "plant quellmoor-utilities: up to date" in again
+    assert "continuing the history this database holds since" in again
     with factory() as session:
         assert session.scalar(select(func.count()).select_from(WebhookSubscription)) == 1
     engine.dispose()

@@ -30,8 +30,8 @@ from dashboard.pages import PAGES
 
 HERE = Path(__file__).resolve().parent
 KEY_ENV = "LOSTWORK_DASHBOARD_API_KEY"
-"""Environment variable holding the API key the dashboard uses (read scope; ingest for
-uploads; alerts need the scope the alerts issue gives acknowledging)."""
+"""Environment variable holding the API key the dashboard uses: the read scope (which
+also acknowledges alerts), ingest for uploads, admin to fit and activate baselines."""
 IN_PROCESS_URL = "http://lostwork.in-process"
 """Base URL of in-process requests (never resolved: the ASGI transport answers them)."""
 
@@ -46,7 +46,9 @@ FOOTER_TEXT = (
 
 def _nav_links() -> list[dcc.Link]:
     return [
-        dcc.Link(module.PAGE["name"], href=module.NAV_HREF, className="lw-nav-link", id=f"nav-{i}")
+        dcc.Link(
+            module.PAGE["name"], href=module.NAV_HREF, className="lw-nav-link", id=f"{NAV}-{i}"
+        )
         for i, module in enumerate(PAGES)
         if getattr(module, "NAV_HREF", None)
     ]
@@ -95,7 +97,11 @@ def remember_choices(system: str | None, clock: str | None) -> dict[str, str]:
 
 
 @registry.page_callback(
-    [Output(f"nav-{i}", "className") for i, m in enumerate(PAGES) if getattr(m, "NAV_HREF", None)],
+    [
+        Output(f"{NAV}-{i}", "className")
+        for i, m in enumerate(PAGES)
+        if getattr(m, "NAV_HREF", None)
+    ],
     Input(LOCATION, "pathname"),
 )
 def highlight_nav(pathname: str | None) -> list[str]:

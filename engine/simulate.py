@@ -62,6 +62,11 @@ def _arrays(*values) -> tuple[list[np.ndarray], pd.Index | None]:
     return flat, index
 
 
+def _float(values: np.ndarray | None) -> np.ndarray:
+    """A computed steam property as a float array (the state's field was requested)."""
+    return np.asarray(values, dtype=float)
+
+
 def boiler_forward(
     steam_flow_kg_per_s,
     steam_pressure_pa,
@@ -179,9 +184,9 @@ def boiler_forward(
     )
     n = m_ms.size
     p_drum = p_ms if drum_pressure_pa is None else _arrays(drum_pressure_pa, m_ms)[0][0]
-    h_ms = steam.from_pt(p_ms, t_ms, ("h",)).h
-    h_fw = steam.from_pt(p_fw, t_fw, ("h",)).h
-    h_bd = steam.saturated_liquid(p_drum, ("h",)).h
+    h_ms = _float(steam.from_pt(p_ms, t_ms, ("h",)).h)
+    h_fw = _float(steam.from_pt(p_fw, t_fw, ("h",)).h)
+    h_bd = _float(steam.saturated_liquid(p_drum, ("h",)).h)
     m_bd = f_bd * m_ms
     m_fw = m_ms + m_bd
     # m_bd = 0 carries no enthalpy even where the drum state is undefined.
@@ -327,25 +332,28 @@ def turbine_forward(
     eta_sections = flat[4 + 2 * k :]
 
     inlet = steam.from_pt(p_in, t_in, _HS)
-    h_a, s_a = inlet.h, inlet.s
+    h_in = _float(inlet.h)
+    h_a, s_a = h_in, _float(inlet.s)
     columns: dict[str, np.ndarray] = {}
     enthalpy_out = np.zeros_like(m_in)
     m_exh = m_in - sum(m_ports, np.zeros_like(m_in))
     chain = [*(("port" + str(j + 1), p_ports[j], m_ports[j]) for j in range(k))]
     chain.append(("exhaust", p_exh, m_exh))
     for (name, p_b, m_b), eta in zip(chain, eta_sections, strict=True):
-        h_s = steam.from_ps(p_b, s_a, ("h",)).h
+        h_s = _float(steam.from_ps(p_b, s_a, ("h",)).h)
         h_b = h_a - eta * (h_a - h_s)
         state = steam.from_ph(p_b, h_b, ("s", "t", "quality"))
-        quality = np.where((state.quality >= 0) & (state.quality <= 1), state.quality, np.nan)
+        x = _float(state.quality)
+        with np.errstate(invalid="ignore"):
+            quality = np.where((x >= 0) & (x <= 1), x, np.nan)
         columns[f"{name}_enthalpy_j_per_kg"] = h_b
-        columns[f"{name}_temperature_k"] = state.t
+        columns[f"{name}_temperature_k"] = _float(state.t)
         columns[f"{name}_quality"] = quality
         enthalpy_out = enthalpy_out + m_b * h_b
-        h_a, s_a = h_b, state.s
+        h_a, s_a = h_b, _float(state.s)
     with np.errstate(invalid="ignore"):
         ok = m_exh >= 0
-    w_shaft = np.where(ok, m_in * inlet.h - enthalpy_out, np.nan)
+    w_shaft = np.where(ok, m_in * h_in - enthalpy_out, np.nan)
     columns["exhaust_flow_kg_per_s"] = np.where(ok, m_exh, np.nan)
     columns["shaft_power_w"] = w_shaft
     # The inverse of engine.units.steam_turbine.shaft_power at constant efficiency.

@@ -105,13 +105,20 @@ def tag_specs(plant_file: Path) -> dict[str, TagSpec]:
     specs = {}
     for name, tag in document.tags.items():
         relative = tag.relative_uncertainty()
-        absolute = None if relative is not None or tag.uncertainty is None else tag.uncertainty
+        absolute = None
+        if relative is None and isinstance(tag.uncertainty, int | float):
+            absolute = float(tag.uncertainty)
+        elif relative is None and tag.uncertainty is not None:
+            raise ValueError(
+                f"tag {name!r}: the simulator reads an uncertainty given as a number in the "
+                f"tag's unit or as '<n>% of reading', not {tag.uncertainty!r}"
+            )
         specs[name] = TagSpec(
             name=name,
             unit=tag.unit,
             low=tag.low,
             high=tag.high,
-            absolute=None if absolute is None else float(absolute),
+            absolute=absolute,
             relative=relative,
         )
     return specs

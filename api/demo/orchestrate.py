@@ -401,7 +401,7 @@ def run_demo(settings: Settings, plan: DemoPlan) -> None:
             return
         # Catch up on the minutes spent computing, so that no tag looks stale when the
         # server's staleness timer first looks; the live simulator continues from here.
-        caught_up = sim.times(end_ms, time.time() * 1000, plan.step_s)
+        caught_up = sim.times(end_ms, int(time.time() * 1000), plan.step_s)
         if caught_up.size:
             backfill(
                 sim,

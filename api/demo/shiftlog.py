@@ -95,10 +95,11 @@ def sheet_frame(sim: Simulator, sheet: LogSheet, t_ms: np.ndarray) -> pd.DataFra
             dtype=float,
         )
         places = _decimals(values)
-        texts = [f"{v:.{places}f}" if math.isfinite(v) else "" for v in values]
+        texts = np.char.mod(f"%.{places}f", values)
+        texts = np.where(np.isfinite(values), texts, "")
         if sheet.decimal_comma:
-            texts = [t.replace(".", ",") for t in texts]
-        columns[f"{tag} [{unit}]"] = texts
+            texts = np.char.replace(texts, ".", ",")
+        columns[f"{tag} [{unit}]"] = texts.tolist()
     return pd.DataFrame(columns)
 
 

@@ -8,7 +8,6 @@ shared time axis per batch, one value list per tag, ``null`` for gaps.
 
 from __future__ import annotations
 
-import math
 import time
 from collections.abc import Iterator
 from dataclasses import dataclass, field
@@ -65,13 +64,18 @@ def columnar_batches(
     names = [str(c) for c in readings.columns]
     for lo in range(0, len(times), per_batch):
         block = values[lo : lo + per_batch]
-        # tolist() gives Python floats; NaN -> None per column keeps the batch JSON-clean.
         series = {}
         for j, name in enumerate(names):
             column = block[:, j]
-            if np.isnan(column).all():
+            missing = np.isnan(column)
+            if missing.all():
                 continue
-            series[name] = [None if math.isnan(v) else v for v in column.tolist()]
+            if missing.any():  # JSON null for "no reading", set by numpy, not per value
+                values = column.astype(object)
+                values[missing] = None
+                series[name] = values.tolist()
+            else:
+                series[name] = column.tolist()
         yield {"plant": plant, "times": times[lo : lo + per_batch].tolist(), "series": series}
 
 

@@ -261,13 +261,17 @@ def test_overview_shows_every_unit_with_the_apis_values(server, browser):
     rows = page.locator("#overview-table tbody tr:has(td)")
     texts = [rows.nth(i).inner_text() for i in range(rows.count())]
     boiler = next(t for t in texts if t.startswith("Boiler 1"))
-    # the overview shows each unit's mean over its last hour, as the API computes it
+    # the overview shows each unit's mean over the hour up to its latest interval, as
+    # the API computes it (the latest interval may be the one after END: a reading holds
+    # into the next interval)
+    hour_end = pd.Timestamp(server.get("/api/v1/units/boiler-1/latest")["t"])
+    hour_end += pd.Timedelta(minutes=1)
     hour = parse_results(
         server.get(
             "/api/v1/units/boiler-1/results",
             metrics="eta_1",
-            start=(END - pd.Timedelta(hours=1)).isoformat(),
-            end=END.isoformat(),
+            start=(hour_end - pd.Timedelta(hours=1)).isoformat(),
+            end=hour_end.isoformat(),
             max_points=2,
         )
     )

@@ -26,6 +26,11 @@ Format ``lostwork-plant/1``::
     tags:
       FW-FLOW:   {unit: t/h, low: 0, high: 60, uncertainty: 1% of reading}
       DRUM-P:    {unit: barg, low: 0, high: 60, uncertainty: 0.1}
+      MS-P:      {unit: barg, low: 0, high: 160, uncertainty: 0.25% of span}
+      MS-T:      {unit: degC, uncertainty: {value: 2, coverage: expanded95}}
+      GAS-FLOW:  {unit: Nm3/h, low: 0, high: 5000,
+                  uncertainty: [{value: 1% of reading, coverage: expanded95},
+                                {value: 5, component: random}]}
     units:
       boiler-1:
         name: Boiler 1
@@ -38,9 +43,19 @@ Format ``lostwork-plant/1``::
                                 below: 0.82, clear_at: 0.83, for: 5 min}
 
 Quantities are a number (in the SI unit of the field, or the unit a comment names) or a
-text ``"<number> <unit>"`` read by pint (``api.measure``). Instrument uncertainty is a
-number in the tag's own unit (absolute) or ``"<n>% of reading"`` (relative). Mappings are
-keyed by name, so a name cannot appear twice (the loader refuses duplicate keys).
+text ``"<number> <unit>"`` read by pint (``api.measure``). Mappings are keyed by name,
+so a name cannot appear twice (the loader refuses duplicate keys).
+
+Instrument uncertainty of a tag (:class:`UncertaintyFigure`): a number in the tag's own
+unit (absolute), ``"<n>% of reading"`` (of the number the instrument shows, in the tag's
+unit) or ``"<n>% of span"`` (of ``span``, by default ``high - low``); a bare figure is a
+standard uncertainty of the systematic kind. The mapping form also says whether the figure
+is ``expanded95`` (a 95 % figure, halved) and whether it is ``random`` (scatter,
+independent from interval to interval). A list gives several figures, which add in
+quadrature. A tag without a figure takes the default of its measurement kind
+(:data:`engine.uncertainty.INSTRUMENT_DEFAULTS`, common practice). A fuel may state its
+heating value's (and density's) uncertainty the same way, ``"<n>%"`` meaning of the
+value: ``uncertainty: {heating_value: {value: 3%, coverage: expanded95}}``.
 """
 
 from __future__ import annotations
@@ -49,7 +64,15 @@ import re
 from typing import Annotated, Any, Final, Literal
 
 import yaml
-from pydantic import BaseModel, ConfigDict, Field, StringConstraints, field_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Discriminator,
+    Field,
+    StringConstraints,
+    Tag,
+    field_validator,
+)
 
 from api.alerts.rulespec import RuleName, RuleSpec
 
@@ -135,10 +158,128 @@ class UltimateSpec(_Strict):
     """For a liquid metered by volume (number: kg/m3)."""
 
 
+Coverage = Literal["standard", "expanded95"]
+Component = Literal["systematic", "random"]
+
+_NUMBER = r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)"
+_RELATIVE = re.compile(rf"^\s*{_NUMBER}\s*%\s*of\s+reading\s*$")
+_FIGURE_TEXT = re.compile(rf"^\s*{_NUMBER}\s*%\s*(?:of\s+(reading|span))?\s*$")
+FIGURE_HELP = "write a number in the tag's unit, or '<n>% of reading' (or '<n>% of span')"
+
+
+def parse_figure_text(text: str, *, bare_percent: bool = False) -> tuple[float, str]:
+    """``"<n>% of reading"`` / ``"<n>% of span"`` (and ``"<n>%"`` when ``bare_percent``,
+    meaning of the value) -> (fraction, basis). ValueError otherwise."""
+    match = _FIGURE_TEXT.match(text)
+    if not match or (match.group(2) is None and not bare_percent):
+        raise ValueError(FIGURE_HELP if not bare_percent else "write a number or '<n>%'")
+    fraction = float(match.group(1)) / 100.0
+    if fraction < 0:
+        raise ValueError("an uncertainty cannot be negative")
+    return fraction, match.group(2) or "reading"
+
+
+class UncertaintyFigure(_Strict):
+    """One stated instrument uncertainty (a datasheet or calibration figure)."""
+
+    value: float | str
+    """A number in the tag's unit, ``"<n>% of reading"`` or ``"<n>% of span"``."""
+    span: float | None = Field(default=None, gt=0)
+    """Calibrated span in the tag's unit, for ``% of span``; default ``high - low``."""
+    coverage: Coverage = "standard"
+    """``standard`` (one standard uncertainty) or ``expanded95`` (about 95 %, halved)."""
+    component: Component = "systematic"
+    """``systematic`` (the same error every interval: calibration, installation) or
+    ``random`` (scatter, independent from interval to interval)."""
+
+    @field_validator("value")
+    @classmethod
+    def _value(cls, value: float | str) -> float | str:
+        if isinstance(value, str):
+            parse_figure_text(value)
+        elif value < 0:
+            raise ValueError("an uncertainty cannot be negative")
+        return value
+
+    def basis(self) -> tuple[float, str]:
+        """(number, basis): an amount in the tag's unit (``absolute``) or a fraction of
+        the ``reading`` or of the ``span``."""
+        if isinstance(self.value, str):
+            return parse_figure_text(self.value)
+        return float(self.value), "absolute"
+
+
+def _shape(value: Any) -> str:
+    """Which form a figure is written in (so a bad figure gets one error, not one per form)."""
+    if isinstance(value, dict | UncertaintyFigure):
+        return "figure"
+    if isinstance(value, list):
+        return "list"
+    return "text" if isinstance(value, str) else "number"
+
+
+FigureInput = Annotated[
+    Annotated[float, Tag("number")]
+    | Annotated[str, Tag("text")]
+    | Annotated[UncertaintyFigure, Tag("figure")],
+    Discriminator(_shape),
+]
+UncertaintyInput = Annotated[
+    Annotated[float, Tag("number")]
+    | Annotated[str, Tag("text")]
+    | Annotated[UncertaintyFigure, Tag("figure")]
+    | Annotated[list[FigureInput], Tag("list")],
+    Discriminator(_shape),
+]
+
+
+def figures_of(given: UncertaintyInput | None) -> list[UncertaintyFigure]:
+    """A tag's ``uncertainty`` as a list of figures (empty when none is stated)."""
+    if given is None:
+        return []
+    items = given if isinstance(given, list) else [given]
+    return [i if isinstance(i, UncertaintyFigure) else UncertaintyFigure(value=i) for i in items]
+
+
+class FuelFigure(_Strict):
+    """A fuel property's uncertainty: ``"<n>%"`` of the value, or an absolute number in
+    the property's SI unit (J/kg, kg/m3)."""
+
+    value: float | str
+    coverage: Coverage = "standard"
+
+    @field_validator("value")
+    @classmethod
+    def _value(cls, value: float | str) -> float | str:
+        if isinstance(value, str):
+            parse_figure_text(value, bare_percent=True)
+        elif value < 0:
+            raise ValueError("an uncertainty cannot be negative")
+        return value
+
+
+class FuelUncertaintySpec(_Strict):
+    heating_value: FuelFigure | float | str | None = None
+    """Uncertainty of the heating value (of a stated or computed HHV; a bound
+    ``fuel_hhv`` tag carries its own). Default: common practice by the kind of fuel."""
+    density: FuelFigure | float | str | None = None
+    """Uncertainty of the density that turns a metered volume into mass. Default none
+    (the volume meter's figure includes the conversion)."""
+
+    @field_validator("heating_value", "density")
+    @classmethod
+    def _figure(cls, value: FuelFigure | float | str | None) -> FuelFigure | None:
+        if value is None or isinstance(value, FuelFigure):
+            return value
+        return FuelFigure(value=value)
+
+
 class FuelSpec(_Strict):
     """Exactly one of ``heating_value``, ``gas``, ``solid``, ``liquid``."""
 
     description: str | None = None
+    uncertainty: FuelUncertaintySpec | None = None
+    """Uncertainty of the fuel's properties (see the module notes)."""
     heating_value: HeatingValueSpec | None = None
     gas: GasSpec | None = None
     solid: UltimateSpec | None = None
@@ -155,9 +296,6 @@ class FuelSpec(_Strict):
         return given[0]
 
 
-_RELATIVE = re.compile(r"^\s*([-+]?[0-9.]+(?:[eE][-+]?\d+)?)\s*%\s*of\s+reading\s*$")
-
-
 class TagSpec(_Strict):
     unit: str = Field(min_length=1, max_length=64)
     """Unit of measure readings arrive in (pint syntax: t/h, barg, degC, %)."""
@@ -166,24 +304,37 @@ class TagSpec(_Strict):
     """Lowest plausible reading, in ``unit``."""
     high: float | None = None
     """Highest plausible reading, in ``unit``."""
-    uncertainty: float | str | None = None
-    """Standard uncertainty: a number in ``unit``, or ``"<n>% of reading"``."""
+    uncertainty: UncertaintyInput | None = None
+    """Instrument uncertainty: a number in ``unit``, ``"<n>% of reading"``, ``"<n>% of
+    span"``, a mapping (:class:`UncertaintyFigure`) or a list of them (module notes)."""
 
     @field_validator("uncertainty")
     @classmethod
-    def _uncertainty(cls, value: float | str | None) -> float | str | None:
-        if isinstance(value, str) and not _RELATIVE.match(value):
-            raise ValueError("write a number in the tag's unit, or '<n>% of reading'")
-        if isinstance(value, float | int) and value < 0:
-            raise ValueError("an uncertainty cannot be negative")
+    def _uncertainty(cls, value: UncertaintyInput | None) -> UncertaintyInput | None:
+        if isinstance(value, list) and not value:
+            raise ValueError("list at least one figure, or leave 'uncertainty' out")
+        items = value if isinstance(value, list) else [value]
+        for item in items:
+            if isinstance(item, str):
+                parse_figure_text(item)
+            elif isinstance(item, int | float) and item < 0:
+                raise ValueError("an uncertainty cannot be negative")
         return value
 
+    def figures(self) -> list[UncertaintyFigure]:
+        """The stated figures (empty when none)."""
+        return figures_of(self.uncertainty)
+
     def relative_uncertainty(self) -> float | None:
-        """The relative uncertainty as a fraction, when given as '% of reading'."""
-        if isinstance(self.uncertainty, str):
-            match = _RELATIVE.match(self.uncertainty)
-            assert match is not None
-            return float(match.group(1)) / 100.0
+        """The relative uncertainty as a fraction, when given as '<n>% of reading' alone."""
+        if isinstance(self.uncertainty, str) and _RELATIVE.match(self.uncertainty):
+            return parse_figure_text(self.uncertainty)[0]
+        return None
+
+    def absolute_uncertainty(self) -> float | None:
+        """The standard uncertainty in ``unit``, when given as a bare number alone."""
+        if isinstance(self.uncertainty, int | float):
+            return float(self.uncertainty)
         return None
 
 

@@ -93,6 +93,11 @@ class Tag(Base):
     """Instrument standard uncertainty as an absolute amount, in SI."""
     uncertainty_rel: Mapped[float | None] = mapped_column(Float)
     """Instrument standard uncertainty as a fraction of the reading. [-]"""
+    uncertainty_figures: Mapped[list[dict[str, Any]] | None] = mapped_column(JSON)
+    """Every stated uncertainty figure in SI (None: none stated): ``basis`` (absolute,
+    reading, span), ``value`` (SI amount or fraction), ``span`` [SI], ``zero`` (the SI
+    value of the instrument's zero, which '% of reading' is taken from), ``coverage``,
+    ``component``. ``uncertainty_si`` and ``uncertainty_rel`` keep the simple forms."""
     updated_at: Mapped[dt.datetime] = mapped_column(UTCDateTime(), default=utcnow)
 
     plant: Mapped[Plant] = relationship(back_populates="tags")

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from pydantic import BaseModel, Field
 
 
@@ -45,6 +47,14 @@ class TagRead(BaseModel):
     high: float | None
     uncertainty_si: float | None
     uncertainty_rel: float | None
+    uncertainty_figures: list[dict[str, Any]] | None = Field(
+        default=None,
+        description=(
+            "Stated uncertainty figures in SI: basis (absolute, reading, span), value (SI "
+            "amount or fraction), span [SI], zero (SI value of the instrument's zero), "
+            "coverage (standard, expanded95), component (systematic, random)."
+        ),
+    )
 
 
 class FuelRead(BaseModel):

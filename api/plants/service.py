@@ -12,8 +12,10 @@ What a change does to stored data (readings are stored in SI and never re-conver
 * the plant's dead state or ambient tag changed: the same for every unit of the plant;
 * the plant's interval changed: the plant's results are deleted (they sit on the old
   grid) and every unit is queued;
-* a tag's unit of measure, bounds or uncertainty changed: nothing is recomputed; the new
-  unit and bounds apply to readings arriving from then on;
+* a tag's unit of measure or bounds changed: nothing is recomputed; the new unit and
+  bounds apply to readings arriving from then on;
+* a tag's uncertainty changed: every unit it feeds is queued (the bands, and the
+  consistency flags judged against them, depend on it);
 * a unit missing from the file is deleted with its results; a fuel missing from the
   file is deleted; a tag missing from the file is KEPT with its readings (listed in the
   report), because deleting measured data on a typo is not recoverable.
@@ -289,18 +291,50 @@ def _resolve(
     )
 
 
+def _stable(value: float | None) -> float | None:
+    """Twelve significant digits: a plant file exported and applied again compares equal."""
+    return None if value is None else float(f"{value:.12g}")
+
+
 def _tag_columns(name: str, tag: TagSpec, si: str, atmosphere: float, err: Any) -> dict[str, Any]:
     def to_si(value: float | None) -> float | None:
         return None if value is None else float(measure.to_si(value, tag.unit, si, atmosphere))
 
-    uncertainty_si = None
-    if isinstance(tag.uncertainty, int | float):
-        # An absolute uncertainty is a difference: convert it with the slope of the
-        # (affine) conversion, so that degC or barg offsets do not enter.
+    def difference(amount: float) -> float:
+        # An amount (an absolute uncertainty, a span) is a difference: convert it with
+        # the slope of the (affine) conversion, so that degC or barg offsets do not enter.
         base = tag.low if tag.low is not None else 0.0
-        lo, hi = to_si(base), to_si(base + float(tag.uncertainty))
+        lo, hi = to_si(base), to_si(base + amount)
         assert lo is not None and hi is not None
-        uncertainty_si = abs(hi - lo)
+        return abs(hi - lo)
+
+    absolute = tag.absolute_uncertainty()
+    uncertainty_si = None if absolute is None else difference(absolute)
+    figures: list[dict[str, Any]] = []
+    for i, figure in enumerate(tag.figures()):
+        number, basis = figure.basis()
+        entry: dict[str, Any] = {
+            "basis": basis,
+            "value": number,
+            "coverage": figure.coverage,
+            "component": figure.component,
+        }
+        if basis == "absolute":
+            entry["value"] = _stable(difference(number))
+        elif basis == "reading":
+            # Of the number the instrument shows: 1 % of 5 barg is 0.05 bar, not 1 % of
+            # the absolute pressure in Pa.
+            entry["zero"] = _stable(to_si(0.0))
+        elif figure.span is not None:
+            entry["span"] = _stable(difference(figure.span))
+        elif tag.low is not None and tag.high is not None:
+            entry["span"] = _stable(difference(tag.high - tag.low))
+        else:
+            path = f"tags.{name}.uncertainty" + (
+                f"[{i}]" if isinstance(tag.uncertainty, list) else ""
+            )
+            err(path, f"tag {name!r}: a '% of span' figure needs 'span', or 'low' and 'high'")
+        figures.append(entry)
     return {
         "unit": tag.unit,
         "si_unit": si,
@@ -311,6 +345,7 @@ def _tag_columns(name: str, tag: TagSpec, si: str, atmosphere: float, err: Any) 
         "high_si": to_si(tag.high),
         "uncertainty_si": uncertainty_si,
         "uncertainty_rel": tag.relative_uncertainty(),
+        "uncertainty_figures": figures or None,
     }
 
 
@@ -445,13 +480,18 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
 
     # Tags (never deleted here: see the module notes)
     tags = {t.name: t for t in plant.tags}
+    uncertainty_changed: set[int] = set()
     for name, values in r.tag_columns.items():
         if name not in tags:
             tags[name] = Tag(plant_id=plant.id, name=name, **values)
             session.add(tags[name])
             report.created.append(f"tag {name}")
-        elif _set(tags[name], values):
+            continue
+        before = _uncertainty_of(tags[name])
+        if _set(tags[name], values):
             report.updated.append(f"tag {name}")
+            if _uncertainty_of(tags[name]) != before:
+                uncertainty_changed.add(tags[name].id)
     report.kept_tags = sorted(set(tags) - set(r.tag_columns))
     session.flush()
 
@@ -501,7 +541,12 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
         if bindings_changed and f"unit {slug}" not in report.created + report.updated:
             report.updated.append(f"unit {slug}")
         fuel_name = spec.fuel
-        if config_changed or bindings_changed or (fuel_name in changed_fuels):
+        if (
+            config_changed
+            or bindings_changed
+            or (fuel_name in changed_fuels)
+            or uncertainty_changed & set(wanted.values())
+        ):
             dirty.add(unit.id)
     session.flush()
 
@@ -543,6 +588,10 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
             report.units_marked_dirty.append(unit.slug)
     mark_units_dirty(session=session, spans=spans, reason="config")
     report.units_marked_dirty.sort()
+
+
+def _uncertainty_of(tag: Tag) -> tuple[Any, ...]:
+    return (tag.uncertainty_si, tag.uncertainty_rel, tag.uncertainty_figures)
 
 
 def _union(a: tuple[int, int] | None, b: tuple[int, int] | None) -> tuple[int, int] | None:
@@ -625,6 +674,41 @@ class UnitConfig:
     ambient_tag_id: int | None
     fuel_price_per_gj: float | None
     currency: str | None
+    tag_names: dict[str, str] = field(default_factory=dict)
+    """Role -> name of the tag bound to it."""
+    tag_uncertainty: dict[str, list[dict[str, Any]]] = field(default_factory=dict)
+    """Role -> the bound tag's stated uncertainty figures in SI (``Tag.uncertainty_figures``);
+    a role missing here has none stated (the default of its measurement kind applies)."""
+    tag_zero: dict[str, float] = field(default_factory=dict)
+    """Role -> the SI value of the bound tag's zero (atmospheric pressure for barg, 273.15 K
+    for degC): a 'percent of reading' is of the number the instrument shows."""
+    fuel_spec: dict[str, Any] | None = None
+    """The fuel's plant-file section (its ``uncertainty``, and the kind of fuel that sets the
+    default heating-value uncertainty)."""
+
+
+def tag_zero(tag: Tag, atmosphere_pa: float) -> float:
+    """The SI value of zero in the tag's unit of measure (0 when it feeds no role)."""
+    if not tag.si_unit:
+        return 0.0
+    return float(measure.to_si(0.0, tag.unit, tag.si_unit, atmosphere_pa))
+
+
+def stored_figures(tag: Tag, atmosphere_pa: float) -> list[dict[str, Any]]:
+    """A tag's stated uncertainty figures in SI (empty when none is stated).
+
+    Tags applied before figures were stored have only ``uncertainty_si`` or
+    ``uncertainty_rel``: a standard, systematic figure, absolute or of reading.
+    """
+    if tag.uncertainty_figures:
+        return list(tag.uncertainty_figures)
+    plain = {"coverage": "standard", "component": "systematic"}
+    if tag.uncertainty_si is not None:
+        return [{"basis": "absolute", "value": tag.uncertainty_si, **plain}]
+    if tag.uncertainty_rel is not None:
+        zero = tag_zero(tag, atmosphere_pa)
+        return [{"basis": "reading", "value": tag.uncertainty_rel, "zero": zero, **plain}]
+    return []
 
 
 def fuel_of(fuel: Fuel, atmosphere_pa: float) -> FuelProperties:
@@ -640,7 +724,11 @@ def load_unit_config(*, session: Session, unit_id: int) -> UnitConfig:
     unit = session.scalars(
         select(Unit)
         .where(Unit.id == unit_id)
-        .options(selectinload(Unit.plant), selectinload(Unit.fuel), selectinload(Unit.bindings))
+        .options(
+            selectinload(Unit.plant),
+            selectinload(Unit.fuel),
+            selectinload(Unit.bindings).selectinload(UnitBinding.tag),
+        )
     ).one_or_none()
     if unit is None:
         raise NotFound(f"no unit with id {unit_id}")
@@ -670,6 +758,14 @@ def load_unit_config(*, session: Session, unit_id: int) -> UnitConfig:
         ambient_tag_id=ambient_id,
         fuel_price_per_gj=plant.fuel_price_per_gj,
         currency=plant.currency,
+        tag_names={b.role: b.tag.name for b in unit.bindings},
+        tag_uncertainty={
+            b.role: figures
+            for b in unit.bindings
+            if (figures := stored_figures(b.tag, plant.atmosphere_pa))
+        },
+        tag_zero={b.role: tag_zero(b.tag, plant.atmosphere_pa) for b in unit.bindings},
+        fuel_spec=dict(unit.fuel.spec) if unit.fuel else None,
     )
 
 
@@ -689,11 +785,32 @@ def export_plant(plant: Plant) -> dict[str, Any]:
         if tag.uncertainty_rel is not None:
             doc["uncertainty"] = f"{tag.uncertainty_rel * 100:g}% of reading"
         elif tag.uncertainty_si is not None and tag.si_unit:
-            base = tag.low_si if tag.low_si is not None else 0.0
-            base_unit = measure.from_si(base, tag.si_unit, tag.unit, atm)
-            top_unit = measure.from_si(base + tag.uncertainty_si, tag.si_unit, tag.unit, atm)
-            doc["uncertainty"] = round(abs(float(top_unit) - float(base_unit)), 12)
+            doc["uncertainty"] = in_tag_unit(tag, tag.uncertainty_si)
+        elif tag.uncertainty_figures and tag.si_unit:
+            doc["uncertainty"] = [figure_doc(tag, f) for f in tag.uncertainty_figures]
         return doc
+
+    def in_tag_unit(tag: Tag, amount_si: float) -> float:
+        assert tag.si_unit is not None
+        base = tag.low_si if tag.low_si is not None else 0.0
+        base_unit = measure.from_si(base, tag.si_unit, tag.unit, atm)
+        top_unit = measure.from_si(base + amount_si, tag.si_unit, tag.unit, atm)
+        return round(abs(float(top_unit) - float(base_unit)), 12)
+
+    def figure_doc(tag: Tag, figure: dict[str, Any]) -> dict[str, Any]:
+        basis = figure["basis"]
+        out: dict[str, Any] = {
+            "value": (
+                in_tag_unit(tag, figure["value"])
+                if basis == "absolute"
+                else f"{figure['value'] * 100:g}% of {basis}"
+            )
+        }
+        if basis == "span":
+            out["span"] = in_tag_unit(tag, figure["span"])
+        out["coverage"] = figure["coverage"]
+        out["component"] = figure["component"]
+        return out
 
     plant_doc: dict[str, Any] = {
         "slug": plant.slug,

@@ -17,12 +17,22 @@ MetricProvider = Callable[[str], Iterable[ResultColumn]]
 """Kind name -> extra metrics stored for units of that kind."""
 
 _providers: list[MetricProvider] = []
+_written_by_pipeline: list[MetricProvider] = []
 
 
-def register_metric_provider(provider: MetricProvider) -> None:
-    """Let another stage declare metrics it stores in the results table."""
+def register_metric_provider(
+    provider: MetricProvider, *, written_by_pipeline: bool = False
+) -> None:
+    """Let another stage declare metrics it stores in the results table.
+
+    ``written_by_pipeline``: the compute step writes these itself, beside the kind's
+    results (uncertainty bands), so a recomputed range replaces them like the results
+    instead of keeping them as another stage's.
+    """
     if provider not in _providers:
         _providers.append(provider)
+    if written_by_pipeline and provider not in _written_by_pipeline:
+        _written_by_pipeline.append(provider)
 
 
 def unit_metrics(kind_name: str) -> dict[str, ResultColumn]:
@@ -42,7 +52,8 @@ def registered_metrics(kind_name: str) -> set[str]:
     """Metrics other stages declared for this kind (the pipeline leaves them alone)."""
     names: set[str] = set()
     for provider in _providers:
-        names |= {column.name for column in provider(kind_name)}
+        if provider not in _written_by_pipeline:
+            names |= {column.name for column in provider(kind_name)}
     return names
 
 

@@ -27,6 +27,7 @@ def build_router() -> APIRouter:
         "api.baselines.views",
         "api.alerts.views",
         "api.webhooks.views",
+        "api.uncertainty.views",
     ):
         extra = _optional_router(module_name)
         if extra is not None:

@@ -86,3 +86,47 @@ def interval_means(
     width = np.diff(edges).astype(float)
     coverage = np.clip(covered / width, 0.0, 1.0)
     return mean, coverage
+
+
+def interval_scatter(
+    t_ms: np.ndarray, values: np.ndarray, edges: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Sample standard deviation and number of the readings stamped inside each interval.
+
+    What the random uncertainty of an interval mean is estimated from (``s / sqrt(n)``,
+    ASME PTC 19.1's random standard uncertainty of a mean): the readings with
+    ``edges[i] <= t < edges[i + 1]``, each counted once whatever its hold time.
+
+    Parameters
+    ----------
+    t_ms : ndarray of int64
+        Reading times, increasing. [ms]
+    values : ndarray of float
+        Reading values in SI; NaN readings are ignored. [SI]
+    edges : ndarray of int64
+        Interval edges. [ms]
+
+    Returns
+    -------
+    std : ndarray of float
+        Sample standard deviation (``n - 1`` in the denominator) per interval; NaN where
+        fewer than two readings fall inside. [SI]
+    count : ndarray of int64
+        Readings inside each interval. [-]
+    """
+    n_int = max(len(edges) - 1, 0)
+    t = np.asarray(t_ms, dtype=np.int64)
+    v = np.asarray(values, dtype=float)
+    keep = np.isfinite(v)
+    slot = np.searchsorted(edges, t[keep], side="right") - 1
+    v = v[keep]
+    inside = (slot >= 0) & (slot < n_int)
+    slot, v = slot[inside], v[inside]
+    count = np.bincount(slot, minlength=n_int).astype(np.int64)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = np.bincount(slot, weights=v, minlength=n_int) / count
+        # Two passes (deviations from each interval's own mean): no cancellation when the
+        # scatter is small against the value (a pressure of 1e7 Pa varying by 1e2).
+        squares = np.bincount(slot, weights=(v - mean[slot]) ** 2, minlength=n_int)
+        std = np.sqrt(np.where(count >= 2, squares / (count - 1), np.nan))
+    return std, count

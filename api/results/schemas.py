@@ -52,6 +52,14 @@ class LatestRead(BaseModel):
     t: str | None = Field(description="Start of the latest computed interval, RFC 3339 UTC.")
     values: dict[str, float | None]
     units: dict[str, str]
+    uncertainty: dict[str, float | None] = Field(
+        default_factory=dict,
+        description=(
+            "Per metric that carries a band, its expanded uncertainty at about 95 % "
+            "(the metric u95_<metric>, in the metric's unit): the value lies within "
+            "value +- uncertainty."
+        ),
+    )
 
 
 class MetricRead(BaseModel):

@@ -20,6 +20,7 @@ from api.results.schemas import (
     ResultsRead,
     UnitSystem,
 )
+from api.uncertainty.metrics import U95
 
 router = APIRouter(prefix="/units", tags=["results"])
 
@@ -128,6 +129,11 @@ def get_latest(
         t=None if found.t_ms is None else service.rfc3339(found.t_ms),
         values=found.values,
         units=found.units,
+        uncertainty={
+            name[len(U95) :]: value
+            for name, value in found.values.items()
+            if name.startswith(U95) and name[len(U95) :] in found.values
+        },
     )
 
 

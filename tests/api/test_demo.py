@@ -297,9 +297,13 @@ def test_feedwater_meter_bias_is_flagged_as_negative_entropy_generation(story) -
     bias = _fault(story.schedule, "meter_bias", "BB3.fw.flow")
     lo = story.start + int(bias.start_s * 1000)
     hi = story.start + int(bias.end_s * 1000)
+    # bb3's direct efficiency rises only 3-4 points (the feedwater carries a seventh of
+    # the steam's enthalpy), within twice the standard uncertainty of the direct-indirect
+    # difference (about 0.025: fuel weigher 2 %, solid-fuel heating value 1.5 %, steam
+    # meter 1.5 %), so DIRECT_INDIRECT_DISAGREE, judged against it (issue 10), stays off.
     for unit, expected in (
         ("tg2", Flag.NEGATIVE_ENTROPY_GENERATION | Flag.ENERGY_BALANCE_OPEN),
-        ("bb3", Flag.ENERGY_BALANCE_OPEN | Flag.DIRECT_INDIRECT_DISAGREE),
+        ("bb3", Flag.ENERGY_BALANCE_OPEN),
     ):
         flags = _flags(story, unit)
         # Stated delay: the first interval starting at or after the fault, none later.

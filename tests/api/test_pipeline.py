@@ -291,7 +291,10 @@ def test_worker_dying_inside_the_transaction_loses_and_duplicates_nothing(
         got["eta_1"].to_numpy(float), want["eta_1"].to_numpy(float), rtol=1e-9
     )
     with session_factory() as s:
-        n_metrics = len(BOILER.results) + 2
+        # The kind's results, flags, coverage, and u_, u_random_, u95_ of the four banded
+        # results this boiler produces (eta_1, eta_1_lhv, eta_2, sgen_w_per_k; no flue-gas
+        # roles bound, so no indirect efficiency): api.uncertainty.metrics.
+        n_metrics = len(BOILER.results) + 2 + 3 * 4
         own = ResultValue.metric.not_in(registered_metrics("boiler"))  # not later stages'
         assert s.scalar(select(func.count()).select_from(ResultValue).where(own)) == 6 * n_metrics
         assert s.scalar(select(WorkSpan.state)) == SpanState.DONE.value

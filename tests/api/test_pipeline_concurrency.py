@@ -36,7 +36,9 @@ from tests.api.factories import T0, plant_document
 from tests.api.test_pipeline import expected_from_engine, push, readings, stored_results
 
 MIN = 60_000
-N_METRICS = len(BOILER.results) + 2  # + flags, coverage
+# + flags, coverage, and u_, u_random_, u95_ of the four banded results the test boiler
+# produces (eta_1, eta_1_lhv, eta_2, sgen_w_per_k: api.uncertainty.metrics).
+N_METRICS = len(BOILER.results) + 2 + 3 * 4
 OWN = ResultValue.metric.not_in(registered_metrics("boiler"))
 """The pipeline's own rows (later stages registered for the kind write theirs too)."""
 PROJECT = Path(__file__).resolve().parents[2]

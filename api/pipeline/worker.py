@@ -40,6 +40,7 @@ from api.plants.service import load_unit_config
 from api.results.metrics import registered_metrics
 from api.results.models import ResultMeta
 from api.results.store import replace_results
+from api.uncertainty.drift import judge_drift
 from engine.catalogue import get_kind
 from engine.steam import FORMULATION
 
@@ -77,6 +78,9 @@ def unregister_after_compute(hook: AfterCompute) -> None:
 
 # Baselines first: expected values, drift and CUSUM are what drift and CUSUM rules read.
 register_after_compute(apply_baselines)
+# Then whether each drift exceeds the uncertainty (reads the baselines' columns; rules
+# may read what it writes).
+register_after_compute(judge_drift)
 # Alert rules judge every chunk's results in its transaction (in a savepoint of their own).
 register_after_compute(evaluate_after_results)
 

@@ -18,6 +18,18 @@ wall time.
   (perturbed input frames, the sensitivity arrays, the table). That work is measured on
   its own, with a stand-in model that returns the nominal output at no cost, and printed
   in plain evaluations: ratio ~= evaluations + own work.
+
+Pipeline chunk (``--chunk``, on by default; ``--no-chunk`` skips it): one day of a
+fictional boiler and back-pressure turbine of our own, readings every 10 s, 60 s
+intervals (1,440 rows), stored in a scratch SQLite file (``--pg``: a scratch database on
+the server of ``LOSTWORK_BENCH_PG_URL``, else ``LOSTWORK_TEST_PG_URL``, else
+postgresql+psycopg://postgres@127.0.0.1:5432/test). Per unit, interleaved, best of the
+repeats:
+
+- compute: :func:`api.pipeline.compute.compute_range` with ``uncertainty=False`` (the bare
+  model) and ``True`` (bands and judged flags);
+- chunk: compute, write the results and rollups (:func:`api.results.store.replace_results`)
+  and run the after-compute stages, as the worker's chunk transaction does, rolled back.
 """
 
 from __future__ import annotations
@@ -128,6 +140,194 @@ def _case(kind: UnitKind, inputs: pd.DataFrame, context: ModelContext, repeats: 
         )
 
 
+# --- one pipeline chunk ---------------------------------------------------------------
+
+CHUNK_PLANT = {
+    "format": "lostwork-plant/1",
+    "plant": {
+        "slug": "bench-works",
+        "name": "Bench Works (fictional)",
+        "time_zone": "Europe/Berlin",
+        "interval": "1 min",
+        "atmosphere": "100 kPa",
+    },
+    "fuels": {"gas": {"heating_value": {"hhv": "52.5 MJ/kg", "lhv": "47.4 MJ/kg",
+                                        "density": "0.78 kg/m3"}}},
+    "tags": {
+        "B.gas": {"unit": "Nm3/h", "low": 0, "high": 12000},
+        "B.fw.flow": {"unit": "t/h", "low": 0, "high": 160, "uncertainty": "1% of reading"},
+        "B.fw.p": {"unit": "barg", "low": 0, "high": 160, "uncertainty": "0.25% of span"},
+        "B.fw.t": {"unit": "degC", "low": 0, "high": 300, "uncertainty": 0.5},
+        "B.st.flow": {"unit": "t/h", "low": 0, "high": 160},
+        "B.st.p": {"unit": "barg", "low": 0, "high": 140},
+        "B.st.t": {"unit": "degC", "low": 0, "high": 560},
+        "T.in.flow": {"unit": "t/h", "low": 0, "high": 160},
+        "T.in.p": {"unit": "barg", "low": 0, "high": 140},
+        "T.in.t": {"unit": "degC", "low": 0, "high": 560},
+        "T.x1.flow": {"unit": "t/h", "low": 0, "high": 60},
+        "T.x1.p": {"unit": "barg", "low": 0, "high": 30},
+        "T.x1.t": {"unit": "degC", "low": 0, "high": 400},
+        "T.ex.p": {"unit": "barg", "low": 0, "high": 10},
+        "T.gen": {"unit": "MW", "low": 0, "high": 40},
+    },
+    "units": {
+        "boiler": {"name": "Boiler", "kind": "boiler", "fuel": "gas", "inputs": {
+            "fuel_volume_flow": "B.gas", "feedwater_flow": "B.fw.flow",
+            "feedwater_pressure": "B.fw.p", "feedwater_temperature": "B.fw.t",
+            "steam_flow": "B.st.flow", "steam_pressure": "B.st.p",
+            "steam_temperature": "B.st.t"}},
+        "turbine": {"name": "Turbine", "kind": "steam_turbine", "inputs": {
+            "inlet_flow": "T.in.flow", "inlet_pressure": "T.in.p",
+            "inlet_temperature": "T.in.t", "extraction1_flow": "T.x1.flow",
+            "extraction1_pressure": "T.x1.p", "extraction1_temperature": "T.x1.t",
+            "exhaust_pressure": "T.ex.p", "generator_power": "T.gen"}},
+    },
+}  # fmt: skip
+"""A fictional boiler feeding a back-pressure turbine with one extraction."""
+
+CHUNK_NOMINAL = {
+    "B.gas": 9000.0, "B.fw.flow": 144.0, "B.fw.p": 120.0, "B.fw.t": 220.0,
+    "B.st.flow": 144.0, "B.st.p": 100.0, "B.st.t": 510.0,
+    "T.in.flow": 144.0, "T.in.p": 98.0, "T.in.t": 505.0, "T.x1.flow": 40.0,
+    "T.x1.p": 15.0, "T.x1.t": 290.0, "T.ex.p": 3.0, "T.gen": 28.0,
+}  # fmt: skip
+"""Operating point in each tag's unit (invented numbers, a plausible heat balance)."""
+
+
+def _day_of_readings(session, start_ms: int) -> int:
+    """Store a day of readings every 10 s around the nominal point; returns their count."""
+    from api.readings.schemas import ColumnarBatch
+    from api.readings.service import ingest_columnar
+
+    rng = np.random.default_rng(5)
+    times = start_ms + 10_000 * np.arange(8640)
+    load = 1.0 + 0.05 * np.sin(2 * np.pi * np.arange(8640) / 8640)  # a day's swing
+    stored = 0
+    for lo in range(0, 8640, 720):  # two hours per call, under the batch limit
+        part = slice(lo, lo + 720)
+        series = {}
+        for tag, value in CHUNK_NOMINAL.items():
+            scaled = value * load[part] if tag.endswith(("flow", "gas", "gen")) else value
+            series[tag] = (scaled * (1 + 0.003 * rng.standard_normal(720))).tolist()
+        batch = ColumnarBatch(plant="bench-works", times=times[part].tolist(), series=series)
+        stored += ingest_columnar(session=session, batch=batch).stored
+    return stored
+
+
+def _scratch_url(pg: bool, folder: str) -> tuple[str, object]:
+    if not pg:
+        return f"sqlite:///{folder}/bench.db", None
+    import os
+    import secrets
+
+    from sqlalchemy import create_engine, text
+    from sqlalchemy.engine import make_url
+
+    base = os.environ.get("LOSTWORK_BENCH_PG_URL") or os.environ.get(
+        "LOSTWORK_TEST_PG_URL", "postgresql+psycopg://postgres@127.0.0.1:5432/test"
+    )
+    name = f"lw_bench_{secrets.token_hex(4)}"
+    admin = create_engine(make_url(base), isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        conn.execute(text(f'CREATE DATABASE "{name}"'))
+
+    def drop() -> None:
+        with admin.connect() as conn:
+            conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
+        admin.dispose()
+
+    return make_url(base).set(database=name).render_as_string(hide_password=False), drop
+
+
+def _time_unit(factory, slug: str, start: int, end: int, repeats: int) -> None:
+    """Print compute and whole-chunk times of one unit with and without uncertainty."""
+    from sqlalchemy import select
+
+    from api.pipeline import worker
+    from api.pipeline.compute import compute_range
+    from api.plants import service as plants
+    from api.plants.models import Unit
+    from api.results.metrics import registered_metrics
+    from api.results.store import replace_results
+
+    with factory() as session:
+        unit_id = session.scalar(select(Unit.id).where(Unit.slug == slug))
+        config = plants.load_unit_config(session=session, unit_id=unit_id)
+    keep = registered_metrics(config.kind)
+
+    def compute(flag: bool):
+        with factory() as session:
+            return compute_range(session, config, start, end, uncertainty=flag)
+
+    def chunk(flag: bool) -> int:
+        # The worker's chunk transaction (without the queue bookkeeping), rolled back so
+        # that every run starts from the same database.
+        with factory() as session:
+            frame = compute_range(session, config, start, end, uncertainty=flag)
+            replace_results(session, unit_id, start, end, frame, keep=keep - set(frame.columns))
+            for hook in worker._after_compute:
+                hook(session, unit_id, start, end)
+            session.rollback()
+            return frame.shape[0] * frame.shape[1]
+
+    best = {key: [math.inf, math.inf] for key in ("c0", "c1", "w0", "w1")}
+    cells: dict = {}
+    for _ in range(repeats):
+        for key, function, flag in (
+            ("c0", compute, False),
+            ("c1", compute, True),
+            ("w0", chunk, False),
+            ("w1", chunk, True),
+        ):
+            cpu, wall = time.process_time(), time.perf_counter()
+            cells[key] = function(flag)
+            cpu, wall = time.process_time() - cpu, time.perf_counter() - wall
+            best[key] = [min(best[key][0], cpu), min(best[key][1], wall)]
+    frame = cells["c1"]
+    bands = [c for c in frame.columns if c.startswith("u95_")]
+    print(
+        f"{config.kind:>14}: {len(frame):,} rows, bands on {len(bands)} results, "
+        f"values written {cells['w0']:,} -> {cells['w1']:,}"
+    )
+    for label, a, b in (("compute", "c0", "c1"), ("chunk  ", "w0", "w1")):
+        print(
+            f"{'':16}{label} without {best[a][0]:6.2f} s cpu ({best[a][1]:6.2f} wall)"
+            f" | with {best[b][0]:6.2f} s cpu ({best[b][1]:6.2f} wall)"
+            f" | ratio {best[b][0] / best[a][0]:5.2f} cpu, {best[b][1] / best[a][1]:5.2f} wall"
+        )
+
+
+def chunk_bench(repeats: int, pg: bool) -> None:
+    """Compute time of a one-day chunk with and without uncertainty (see module notes)."""
+    import tempfile
+
+    from api.core import migrate
+    from api.core.db import create_db_engine, make_session_factory
+    from api.plants import service as plants
+
+    start = 1_767_225_600_000  # 2026-01-01T00:00Z
+    end = start + 86_400_000
+    with tempfile.TemporaryDirectory() as folder:
+        url, drop = _scratch_url(pg, folder)
+        try:
+            migrate.upgrade(url)
+            engine = create_db_engine(url)
+            factory = make_session_factory(engine)
+            with factory() as session:
+                plants.apply_plant(session=session, document=CHUNK_PLANT, default_interval_s=60)
+                stored = _day_of_readings(session, start)
+                session.commit()
+            backend = "PostgreSQL" if pg else "SQLite"
+            print(f"pipeline chunk: one day, {stored:,} readings every 10 s, 60 s intervals, "
+                  f"{backend}; best of {repeats} interleaved runs")  # fmt: skip
+            for slug in ("boiler", "turbine"):
+                _time_unit(factory, slug, start, end, repeats)
+            engine.dispose()
+        finally:
+            if drop is not None:
+                drop()
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument(
@@ -136,7 +336,20 @@ def main() -> None:
         help="comma-separated row counts (default: one day of minutes, and 100,000)",
     )
     parser.add_argument("--repeats", type=int, default=2)
+    parser.add_argument(
+        "--chunk",
+        action=argparse.BooleanOptionalAction,
+        default=True,
+        help="also time one pipeline chunk with and without uncertainty",
+    )
+    parser.add_argument(
+        "--pg", action="store_true", help="the pipeline chunk on PostgreSQL instead of SQLite"
+    )
+    parser.add_argument("--chunk-only", action="store_true", help="only the pipeline chunk")
     args = parser.parse_args()
+    if args.chunk_only:
+        chunk_bench(args.repeats, args.pg)
+        return
     print(
         f"uncertainty bench: best of {args.repeats} interleaved runs; ratio = with / without "
         "uncertainty, measured in the same run (CPU time of this process is the figure "
@@ -155,6 +368,8 @@ def main() -> None:
             ModelContext(dead_state()),
             args.repeats,
         )
+    if args.chunk:
+        chunk_bench(args.repeats, args.pg)
 
 
 if __name__ == "__main__":

@@ -8,10 +8,9 @@ same readings (which the ingest API then reports as unchanged).
 The shapes are invented for the demo (our choice: a mild coastal climate and a three-shift
 production week); nothing here is a published model.
 
-Why a mild climate: the engine's dead state needs liquid water at T0
-(:func:`engine.deadstate.dead_state` gives NaN below 0.01 degC, the lower limit of
-IAPWS-IF97 region 1), and the plant takes T0 from its outdoor-air tag. A frost would
-blank every result for its duration; the demo site never sees one.
+The plant takes T0 from its outdoor-air tag. The engine accepts a dead state down to
+-35 degC (supercooled-liquid water reference, :func:`engine.deadstate.dead_state`); the
+demo's mild climate keeps the story about the plant, not the weather.
 """
 
 from __future__ import annotations
@@ -124,8 +123,7 @@ def site_conditions(t_ms: np.ndarray, *, seed: int, time_zone: str) -> SiteCondi
 
     # Weather of a mild coastal site: a seasonal cycle (coldest about 20 January), a
     # daily cycle peaking at 15:00 solar time (about 15:30 UTC this far west), larger in
-    # summer, and passing weather systems. The coldest possible hour stays above +3 degC:
-    # see the module notes on why the dead state must stay above freezing.
+    # summer, and passing weather systems. The coldest possible hour stays above +3 degC.
     # t_s / YEAR_S counts years since 1970-01-01; the phase puts the minimum on 20 January.
     season = np.cos(2.0 * np.pi * (t_s / YEAR_S - 20.5 / 365.2425))
     summer = -season  # +1 in midsummer

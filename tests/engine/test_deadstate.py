@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-from iapws import IAPWS97
+from iapws import IAPWS95, IAPWS97
 
 from engine.deadstate import P0_DEFAULT_PA, T0_DEFAULT_K, dead_state
 
@@ -88,3 +88,26 @@ def test_dead_state_above_boiling_point_is_nan_not_steam():
     per_row = dead_state(np.array([298.15, 380.0]))
     assert np.isfinite(per_row.h0_water_j_per_kg[0])
     assert np.isnan(per_row.h0_water_j_per_kg[1])
+
+
+@pytest.mark.parametrize("t0_k", [268.15, 253.15, 243.15])
+def test_frost_dead_state_is_supercooled_liquid_water_per_iapws95(t0_k):
+    # Reference: IAPWS-95 extrapolated into the supercooled liquid (IAPWS R6-95(2018),
+    # Sec. 6.3.2), through the `iapws` package. What exergy uses is g0 = h0 - T0 s0 (the
+    # rest cancels in (h - h0) - T0 (s - s0)); the cp fit integrates to within 1 J/kg of
+    # it. h0 alone carries the IF97-vs-IAPWS-95 offset (about 9 J/kg at 25 degC too).
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # iapws warns that it extrapolates: that is the point
+        water = IAPWS95(T=t0_k, P=P0_DEFAULT_PA / 1e6)
+    dead = dead_state(t0_k)
+    g0 = dead.h0_water_j_per_kg - t0_k * dead.s0_water_j_per_kg_k
+    assert g0 == pytest.approx(1e3 * (water.h - t0_k * water.s), abs=1.0)
+    assert dead.h0_water_j_per_kg == pytest.approx(1e3 * water.h, abs=20.0)
+
+
+def test_dead_state_colder_than_the_supercooled_fit_is_nan():
+    dead = dead_state(np.array([230.0, 238.15]))
+    assert np.isnan(dead.h0_water_j_per_kg[0])
+    assert np.isfinite(dead.h0_water_j_per_kg[1])

@@ -10,6 +10,7 @@ from __future__ import annotations
 import importlib
 import json
 import logging
+import os
 import sys
 from dataclasses import asdict
 from pathlib import Path
@@ -266,8 +267,23 @@ def serve(
     _setup_logging(settings)
     _prepare_database(settings)
     host, port = host or settings.host, port or settings.port
+    app_ = create_app(settings)
+    if not os.environ.get("LOSTWORK_DASHBOARD_API_KEY"):
+        app_.state.dashboard_api_key = _dashboard_key(settings)
     typer.echo(f"lostwork serving on http://{host}:{port}  (API docs: http://{host}:{port}/docs)")
-    uvicorn.run(create_app(settings), host=host, port=port, log_level=settings.log_level.lower())
+    uvicorn.run(app_, host=host, port=port, log_level=settings.log_level.lower())
+
+
+def _dashboard_key(settings: Settings) -> str:
+    """The in-process dashboard's key, renewed at every start (see Settings.dashboard_scopes)."""
+    from api.auth.service import renew_dashboard_key
+
+    factory = _session_factory(settings)
+    try:
+        with factory() as session:
+            return renew_dashboard_key(session=session, scopes=settings.dashboard_scopes)
+    finally:
+        factory.kw["bind"].dispose()
 
 
 def _setup_logging(settings: Settings) -> None:

@@ -74,3 +74,18 @@ def revoke_key(*, session: Session, key_id: int) -> ApiKey:
         key.revoked_at = utcnow()
         session.commit()
     return key
+
+
+DASHBOARD_KEY_NAME = "dashboard (in-process)"
+
+
+def renew_dashboard_key(*, session: Session, scopes: Iterable[str]) -> str:
+    """A fresh key for the dashboard served inside this process; the previous one is
+    revoked, so restarts never pile up live keys nobody holds."""
+    stale = session.scalars(
+        select(ApiKey).where(ApiKey.name == DASHBOARD_KEY_NAME, ApiKey.revoked_at.is_(None))
+    )
+    for key in stale:
+        key.revoked_at = utcnow()
+    _, plaintext = create_key(session=session, name=DASHBOARD_KEY_NAME, scopes=scopes)
+    return plaintext

@@ -58,8 +58,15 @@ class Settings(BaseSettings):
     """Base URL printed by the CLI and used in links the service hands out."""
     host: str = "127.0.0.1"
     port: int = 8000
+    dashboard_scopes: Annotated[list[str], NoDecode] = Field(
+        default_factory=lambda: ["read", "ingest"]
+    )
+    """Scopes of the key ``lostwork serve`` issues to its in-process dashboard when
+    ``LOSTWORK_DASHBOARD_API_KEY`` is not set (add ``admin`` to fit baselines from the
+    browser). The dashboard itself has no login: keep it on loopback or behind a proxy
+    that authenticates."""
 
-    @field_validator("webhook_allow_list", mode="before")
+    @field_validator("webhook_allow_list", "dashboard_scopes", mode="before")
     @classmethod
     def _split_list(cls, value: object) -> object:
         if isinstance(value, str):

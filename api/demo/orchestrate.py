@@ -422,7 +422,7 @@ def run_demo(settings: Settings, plan: DemoPlan) -> None:
             return
         if plan.progressive:
             _echo("results are computed in the background by the server's worker")
-        _serve(settings, port, sim, ingest_key, end_ms, plan, stop)
+        _serve(settings, port, sim, ingest_key, admin_key, end_ms, plan, stop)
     finally:
         if receiver is not None:
             receiver.stop()
@@ -436,11 +436,15 @@ def _serve(
     port: int,
     sim: Simulator,
     ingest_key: str,
+    admin_key: str,
     from_ms: int,
     plan: DemoPlan,
     stop: threading.Event,
 ) -> None:
-    """Run the server in this thread and the live simulator beside it until Ctrl-C."""
+    """Run the server in this thread and the live simulator beside it until Ctrl-C.
+
+    The in-process dashboard gets the admin key, so the demo's visitor can fit and
+    activate baselines from the browser (the demo listens on loopback only)."""
     import uvicorn
 
     from api.main import create_app
@@ -469,9 +473,9 @@ def _serve(
             )
 
     feeder = threading.Thread(target=simulate_live, name="demo-live", daemon=True)
-    server = uvicorn.Server(
-        uvicorn.Config(create_app(settings), host=settings.host, port=port, log_level="warning")
-    )
+    app = create_app(settings)
+    app.state.dashboard_api_key = admin_key
+    server = uvicorn.Server(uvicorn.Config(app, host=settings.host, port=port, log_level="warning"))
     feeder.start()
     try:
         server.run()  # installs its own Ctrl-C handling and returns on it

@@ -1,10 +1,10 @@
 """Refrigerant and working-fluid states other than water, through CoolProp's HEOS backend.
 
 :mod:`engine.steam` owns water and steam (IAPWS-IF97); this module is the one place
-that asks CoolProp about every other pure or pseudo-pure fluid: the refrigerants of
-heat pumps and chillers and the working fluids of organic Rankine sets. It decides,
-as :mod:`engine.steam` does, how arrays are handled and how failures become NaN plus
-a per-row ``in_range`` flag. No function here raises for a bad row.
+that asks about every other pure or pseudo-pure fluid: the refrigerants of heat pumps
+and chillers and the working fluids of organic Rankine sets. Like :mod:`engine.steam`
+it calls CoolProp through :mod:`engine._coolprop` (array handling, failures as NaN) and
+adds a per-row ``in_range`` flag. No function here raises for a bad row.
 
 Fluids are named by their ASHRAE Standard 34 designation (``"R134a"``, ``"R717"``);
 :data:`REFRIGERANTS` maps each designation lostwork accepts to CoolProp's fluid name.
@@ -35,11 +35,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from CoolProp.CoolProp import PropsSI
+
+from engine import _coolprop
 
 FORMULATION = "CoolProp HEOS (default reference equation of state per fluid)"
 """Name of the property formulation for fluids other than water; stored with results."""
@@ -99,7 +100,7 @@ def coolprop_name(refrigerant: str) -> str:
 
 
 @dataclass(frozen=True)
-class FluidState:
+class FluidState(_coolprop.StateFrame):
     """States of one fluid, one row per element; properties not asked for are ``None``.
 
     Attributes
@@ -128,51 +129,12 @@ class FluidState:
     quality: np.ndarray | None = None
     index: pd.Index | None = None
 
-    def to_frame(self) -> pd.DataFrame:
-        """The computed properties as columns of a DataFrame on :attr:`index`."""
-        columns = {
-            f.name: getattr(self, f.name)
-            for f in fields(self)
-            if f.name != "index" and getattr(self, f.name) is not None
-        }
-        return pd.DataFrame(columns, index=self.index)
-
-
-def _inputs(*values) -> tuple[list[np.ndarray], pd.Index | None]:
-    """Flat float arrays broadcast together, and the index of the first Series input."""
-    index = next((v.index for v in values if isinstance(v, pd.Series)), None)
-    arrays = np.broadcast_arrays(
-        *(
-            v.to_numpy(dtype=float, na_value=np.nan)
-            if isinstance(v, pd.Series)
-            else np.asarray(v, dtype=float)
-            for v in values
-        )
-    )
-    flat = [np.array(a, dtype=float).reshape(-1) for a in arrays]
-    if index is not None and len(index) != flat[0].size:
-        index = None
-    return flat, index
-
 
 def _props(
     output: str, name1: str, v1: np.ndarray, name2: str, v2: np.ndarray, fluid: str
 ) -> np.ndarray:
-    """One CoolProp call over whole arrays; failed states come back as NaN.
-
-    CoolProp loops in C++ over arrays and marks a failed element with ``inf``, but it
-    raises when every element fails, and an array of one element raises on failure;
-    both cases are caught here. Every CoolProp call of this module passes through here.
-    """
-    if v1.size == 0:
-        return np.empty(0)
-    try:
-        out = np.array(PropsSI(output, name1, v1, name2, v2, "HEOS::" + fluid), dtype=float)
-    except ValueError:
-        return np.full(v1.shape, np.nan)
-    out = out.reshape(v1.shape)
-    out[~np.isfinite(out)] = np.nan
-    return out
+    """One HEOS call over whole arrays (NaN where it fails)."""
+    return _coolprop.props(output, name1, v1, name2, v2, "HEOS::" + fluid)
 
 
 def _state(
@@ -185,7 +147,7 @@ def _state(
     valid_second,
 ) -> FluidState:
     fluid = coolprop_name(refrigerant)
-    (p, y), index = _inputs(v1, v2)
+    (p, y), index = _coolprop.inputs(v1, v2)
     n = p.size
     with np.errstate(invalid="ignore"):
         ok = np.isfinite(p) & (p > 0) & np.isfinite(y) & valid_second(y)
@@ -366,7 +328,7 @@ def saturation_pressure(refrigerant: str, t_k, quality=0.0):
         A Series on the same index when ``t_k`` is a Series; NaN outside the dome. [Pa]
     """
     fluid = coolprop_name(refrigerant)
-    (t, x), index = _inputs(t_k, quality)
+    (t, x), index = _coolprop.inputs(t_k, quality)
     with np.errstate(invalid="ignore"):
         ok = np.isfinite(t) & (t > 0) & _fraction(x)
     rows = np.flatnonzero(ok)

@@ -1,8 +1,10 @@
 """Water and steam states by the IAPWS industrial formulation 1997 (IAPWS-IF97).
 
-This module is the only place in lostwork that imports CoolProp. It decides how arrays
-are handled, how failures become NaN plus a per-row flag, and which formulation is
-used (:data:`FORMULATION`, recorded with every result).
+This module owns water and steam; its CoolProp calls go through :mod:`engine._coolprop`
+(the one module that imports CoolProp, shared with :mod:`engine.fluids`), which decides
+how arrays are handled and how failures become NaN. This module adds the IF97 range
+checks, the per-row flag and the formulation (:data:`FORMULATION`, recorded with every
+result).
 
 Every function takes numeric input (scalar, list, ndarray or Series, broadcast against
 each other by position, not by label) and returns a :class:`SteamState` of 1-D float
@@ -51,12 +53,13 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from enum import IntEnum
 
 import numpy as np
 import pandas as pd
-from CoolProp.CoolProp import PropsSI
+
+from engine import _coolprop
 
 FORMULATION = "IAPWS-IF97"
 """Name of the water/steam formulation; stored in result metadata and shown in the README."""
@@ -119,7 +122,7 @@ _COOLPROP_NAME = {"h": "H", "s": "S"}
 
 
 @dataclass(frozen=True)
-class SteamState:
+class SteamState(_coolprop.StateFrame):
     """Water/steam states, one row per element; properties not asked for are ``None``.
 
     Attributes
@@ -155,56 +158,11 @@ class SteamState:
     phase: np.ndarray | None = None
     index: pd.Index | None = None
 
-    def to_frame(self) -> pd.DataFrame:
-        """The computed properties as columns of a DataFrame on :attr:`index`."""
-        columns = {
-            f.name: getattr(self, f.name)
-            for f in fields(self)
-            if f.name != "index" and getattr(self, f.name) is not None
-        }
-        return pd.DataFrame(columns, index=self.index)
-
-
-def _inputs(*values) -> tuple[list[np.ndarray], pd.Index | None]:
-    """Flat float arrays broadcast together, and the index of the first Series input."""
-    index = next((v.index for v in values if isinstance(v, pd.Series)), None)
-    arrays = np.broadcast_arrays(
-        *(
-            v.to_numpy(dtype=float, na_value=np.nan)
-            if isinstance(v, pd.Series)
-            else np.asarray(v, dtype=float)
-            for v in values
-        )
-    )
-    flat = [np.array(a, dtype=float).reshape(-1) for a in arrays]
-    if index is not None and len(index) != flat[0].size:
-        index = None
-    return flat, index
-
 
 def _props(output: str, name1: str, v1: np.ndarray, name2: str, v2: np.ndarray) -> np.ndarray:
-    """One CoolProp call over whole arrays; failed states come back as NaN.
-
-    CoolProp loops in C++ over arrays and marks a failed state with ``inf``, but it
-    raises when every element fails, and an array of one element raises on failure,
-    so those cases are caught here. Every CoolProp call of lostwork passes through this
-    function (the benchmark counts them here).
-    """
-    if v1.size == 0:
-        return np.empty(0)
-    try:
-        out = np.array(PropsSI(output, name1, v1, name2, v2, _BACKEND_FLUID), dtype=float)
-    except ValueError:
-        return np.full(v1.shape, np.nan)
-    out = out.reshape(v1.shape)
-    out[~np.isfinite(out)] = np.nan
-    return out
-
-
-def _scatter(n: int, rows: np.ndarray, values: np.ndarray) -> np.ndarray:
-    out = np.full(n, np.nan)
-    out[rows] = values
-    return out
+    """One IF97 call over whole arrays (NaN where it fails); every water-property call of
+    lostwork passes through here, so the benchmark counts them here."""
+    return _coolprop.props(output, name1, v1, name2, v2, _BACKEND_FLUID)
 
 
 def _pt_in_range(p: np.ndarray, t: np.ndarray) -> np.ndarray:
@@ -257,7 +215,7 @@ def from_pt(p_pa, t_k, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamState:
     .. [1] IAPWS R7-97(2012), Sec. 5 (region 1), 6 (region 2), 7 (region 3), 9 (region 5).
     .. [2] IAPWS SR5-05(2016), v(p, T) for region 3.
     """
-    (p, t), index = _inputs(p_pa, t_k)
+    (p, t), index = _coolprop.inputs(p_pa, t_k)
     n = p.size
     ok = _pt_in_range(p, t)
     rows = np.flatnonzero(ok)
@@ -267,9 +225,11 @@ def from_pt(p_pa, t_k, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamState:
         if prop == "t":
             values["t"] = t.copy()
         elif prop in _COOLPROP_NAME:
-            values[prop] = _scatter(n, rows, _props(_COOLPROP_NAME[prop], "P", pr, "T", tr))
+            values[prop] = _coolprop.scatter(
+                n, rows, _props(_COOLPROP_NAME[prop], "P", pr, "T", tr)
+            )
         elif prop == "v":
-            values["v"] = _scatter(n, rows, 1.0 / _props("D", "P", pr, "T", tr))
+            values["v"] = _coolprop.scatter(n, rows, 1.0 / _props("D", "P", pr, "T", tr))
         elif prop == "quality":
             values["quality"] = np.full(n, np.nan)
         elif prop == "phase":
@@ -283,7 +243,7 @@ def from_pt(p_pa, t_k, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamState:
         checked.append(np.where(values["phase"] == int(Phase.INVALID), np.nan, 0.0))
     if not checked:
         # Nothing was computed: one call tells whether the backend accepts the state.
-        checked = [_scatter(n, rows, _props("H", "P", pr, "T", tr))]
+        checked = [_coolprop.scatter(n, rows, _props("H", "P", pr, "T", tr))]
     ok = ok & np.logical_and.reduce([np.isfinite(a) for a in checked])
     return _finish(p, ok, values, index)
 
@@ -420,12 +380,14 @@ def _from_p_and(
     with np.errstate(invalid="ignore"):
         vapour = ys > y_g
         below = np.flatnonzero(ys <= y_g)
-    y_f = _scatter(ps.size, below, _props(name, "P", ps[below], "Q", np.zeros(below.size)))
+    y_f = _coolprop.scatter(ps.size, below, _props(name, "P", ps[below], "Q", np.zeros(below.size)))
     with np.errstate(invalid="ignore"):
         two = ys >= y_f
         liquid = ys < y_f
     need_t = np.flatnonzero(vapour | liquid | (two & ("t" in props)))
-    t_sat = _scatter(ps.size, need_t, _props("T", "P", ps[need_t], "Q", np.zeros(need_t.size)))
+    t_sat = _coolprop.scatter(
+        ps.size, need_t, _props("T", "P", ps[need_t], "Q", np.zeros(need_t.size))
+    )
     vapour &= np.isfinite(t_sat)
     liquid &= np.isfinite(t_sat)
 
@@ -525,7 +487,7 @@ def from_ph(p_pa, h_j_per_kg, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamS
     .. [1] IAPWS R7-97(2012), backward equations T(p,h): Eq. 11 (region 1), Eqs. 22-24
        (region 2); saturation (Sec. 8).
     """
-    (p, h), index = _inputs(p_pa, h_j_per_kg)
+    (p, h), index = _coolprop.inputs(p_pa, h_j_per_kg)
     return _from_p_and(p, h, "H", props, index)
 
 
@@ -554,7 +516,7 @@ def from_ps(p_pa, s_j_per_kg_k, props: tuple[str, ...] = ALL_PROPERTIES) -> Stea
     .. [1] IAPWS R7-97(2012), backward equations T(p,s): Eq. 13 (region 1), Eqs. 25-27
        (region 2); saturation (Sec. 8).
     """
-    (p, s), index = _inputs(p_pa, s_j_per_kg_k)
+    (p, s), index = _coolprop.inputs(p_pa, s_j_per_kg_k)
     return _from_p_and(p, s, "S", props, index)
 
 
@@ -580,7 +542,7 @@ def from_px(p_pa, quality, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamStat
     ----------
     .. [1] IAPWS R7-97(2012), Sec. 8 (region 4, saturation-temperature equation).
     """
-    (p, x), index = _inputs(p_pa, quality)
+    (p, x), index = _coolprop.inputs(p_pa, quality)
     n = p.size
     with np.errstate(invalid="ignore"):
         ok = (p >= P_MIN_PA) & (p < P_CRITICAL_PA) & (x >= 0) & (x <= 1)
@@ -591,14 +553,14 @@ def from_px(p_pa, quality, props: tuple[str, ...] = ALL_PROPERTIES) -> SteamStat
     for prop in props:
         if prop in names:
             out = _props(names[prop], "P", pr, "Q", xr)
-            values[prop] = _scatter(n, rows, 1.0 / out if prop == "v" else out)
+            values[prop] = _coolprop.scatter(n, rows, 1.0 / out if prop == "v" else out)
         elif prop == "quality":
             values["quality"] = x.copy()
         elif prop == "phase":
             values["phase"] = np.full(n, int(Phase.TWO_PHASE), dtype=np.int8)
     checked = [values[k] for k in ("t", "h", "s", "v") if k in values]
     if not checked:
-        checked = [_scatter(n, rows, _props("T", "P", pr, "Q", xr))]
+        checked = [_coolprop.scatter(n, rows, _props("T", "P", pr, "Q", xr))]
     ok = ok & np.logical_and.reduce([np.isfinite(a) for a in checked])
     return _finish(p, ok, values, index)
 
@@ -639,8 +601,8 @@ def saturation_pressure(t_k):
     ----------
     .. [1] IAPWS R7-97(2012), Eq. 30 (saturation-pressure equation).
     """
-    (t,), index = _inputs(t_k)
+    (t,), index = _coolprop.inputs(t_k)
     with np.errstate(invalid="ignore"):
         rows = np.flatnonzero((t >= _T_MIN_K) & (t < T_CRITICAL_K))
-    p = _scatter(t.size, rows, _props("P", "T", t[rows], "Q", np.zeros(rows.size)))
+    p = _coolprop.scatter(t.size, rows, _props("P", "T", t[rows], "Q", np.zeros(rows.size)))
     return _like_input(p, index)

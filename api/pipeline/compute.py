@@ -143,7 +143,9 @@ def compute_range(
     else:
         result = kind.model(inputs, config.parameters, context)
         engine_flags = (
-            result[FLAGS_METRIC].to_numpy(dtype=np.int64) if FLAGS_METRIC in result else 0
+            result[FLAGS_METRIC].to_numpy(dtype=np.int64)
+            if FLAGS_METRIC in result
+            else np.zeros(len(inputs), dtype=np.int64)
         )
     out = pd.DataFrame(index=t_index)
     for column in kind.results:
@@ -203,7 +205,7 @@ def prepare_range(
         return None
     means = np.column_stack([per_tag[config.bindings[r]][0] for r in roles])
     cover = np.column_stack([per_tag[config.bindings[r]][1] for r in roles])
-    computed = (cover > 0).any(axis=1)
+    computed: np.ndarray = np.asarray((cover > 0).any(axis=1))
     if not computed.any():
         return None
     means, cover = means[computed], cover[computed]
@@ -218,7 +220,7 @@ def prepare_range(
         defaulted = ~(t0_cover >= averaging.min_coverage)
         t0 = np.where(defaulted, config.t0_k, t0_mean)
         data_flags |= np.where(defaulted, np.int64(DataFlag.AMBIENT_DEFAULT), np.int64(0))
-    random = {}
+    random: dict[str, np.ndarray] = {}
     if scatter:
         random = {r: _random_part(loaded[config.bindings[r]], edges, computed) for r in roles}
     return Prepared(inputs, cover, data_flags, t0, random)

@@ -487,10 +487,10 @@ def _write(session: Session, r: _Resolved, report: ApplyReport) -> None:
             session.add(tags[name])
             report.created.append(f"tag {name}")
             continue
-        before = _uncertainty_of(tags[name])
+        stated_before = _uncertainty_of(tags[name])
         if _set(tags[name], values):
             report.updated.append(f"tag {name}")
-            if _uncertainty_of(tags[name]) != before:
+            if _uncertainty_of(tags[name]) != stated_before:
                 uncertainty_changed.add(tags[name].id)
     report.kept_tags = sorted(set(tags) - set(r.tag_columns))
     session.flush()

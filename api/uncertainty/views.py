@@ -60,8 +60,8 @@ def get_uncertainty(
         u_systematic=_finite(found.u_systematic),
         u95=_finite(found.u95),
         contributors=[
-            ContributorRead(
-                **{k: _finite(v) if isinstance(v, float) else v for k, v in asdict(c).items()}
+            ContributorRead.model_validate(
+                {k: _finite(v) if isinstance(v, float) else v for k, v in asdict(c).items()}
             )
             for c in found.contributors
         ],

@@ -376,6 +376,7 @@ def test_latest_of_a_unit_without_results(client, read, plant):
         "t": None,
         "values": {},
         "units": {},
+        "uncertainty": {},
     }
 
 

@@ -318,6 +318,18 @@ SECONDARY_RESULTS: tuple[ResultColumn, ...] = (
         "W",
         "Electric input minus the exergy gained by both streams (exergy balance).",
     ),
+    ResultColumn(
+        "exergy_product_w",
+        "W",
+        "Flow exergy gained by the product stream (chilled stream when cooling, heated "
+        "stream when heating).",
+    ),
+    ResultColumn(
+        "rejected_heat_exergy_w",
+        "W",
+        "Flow exergy gained by the other stream: exergy rejected with the by-product heat "
+        "(electric input = product + rejected + destroyed).",
+    ),
     ResultColumn("sgen_w_per_k", "W/K", "Entropy generation rate (entropy balance)."),
     ResultColumn("lost_work_w", "W", "T0 times entropy generation (Gouy-Stodola)."),
 )
@@ -629,6 +641,8 @@ def heat_pump_performance(
             "energy_balance_error": balance_error,
             # Exergy route: electric input minus the flow exergy both streams gained.
             "exergy_destroyed_w": power - exergy_e - exergy_c,
+            "exergy_product_w": exergy_e if product == "cooling" else exergy_c,
+            "rejected_heat_exergy_w": exergy_c if product == "cooling" else exergy_e,
         }
         # Entropy route: the streams' entropy changes and the unaccounted heat at T0.
         sgen = entropy_e + entropy_c + unaccounted / t0

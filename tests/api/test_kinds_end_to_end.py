@@ -362,23 +362,7 @@ def engine_results(case: Case, lo: int, hi: int) -> pd.DataFrame:
 
 @pytest.mark.parametrize(
     "case",
-    [
-        pytest.param(c, id=c.kind)
-        if c.kind != "heat_pump"
-        else pytest.param(
-            c,
-            id=c.kind,
-            marks=pytest.mark.xfail(
-                strict=True,
-                reason=(
-                    "dashboard.exergy_account has no product column for heat_pump: its "
-                    "results carry no exergy product (no exergy_product_w), so "
-                    "build_account returns None"
-                ),
-            ),
-        )
-        for c in CASES
-    ],
+    [pytest.param(c, id=c.kind) for c in CASES],
 )
 def test_kind_declared_fed_computed_baselined_alerted_and_accounted(
     case: Case, client, admin, make_key, session_factory

@@ -419,3 +419,13 @@ def test_property_balances_and_bounds(cooling, t_e_in, d_e, t_c_in, d_c, share, 
     assert out["eta_2"] <= 1.0 + 1e-6
     assert out["sgen_w_per_k"] >= -1e-6 * power / t0
     assert int(out["flags"]) & ~int(Flag.ENERGY_BALANCE_OPEN) == 0
+
+
+@pytest.mark.parametrize("product", ["cooling", "heating"])
+def test_exergy_account_closes_product_plus_rejected_plus_destroyed(product):
+    # Exergy balance of the machine (Bejan, Tsatsaronis & Moran 1996, Ch. 3): the electric
+    # input leaves as the product stream's exergy gain, the other stream's and destruction.
+    out = _run([SECONDARY_ONLY], text={**CHILLER, "product": product}).iloc[0]
+    total = out["exergy_product_w"] + out["rejected_heat_exergy_w"] + out["exergy_destroyed_w"]
+    assert total == pytest.approx(out["electric_power_w"], rel=1e-12)
+    assert 0 < out["exergy_product_w"] < out["electric_power_w"]

@@ -136,6 +136,37 @@ def trend_figure(series: pd.DataFrame, *, name: str, unit: str, x_title: str) ->
     return _style(fig, x_title=x_title, y_title=axis_title(name, unit))
 
 
+def add_measurement_band(fig: go.Figure, mean: pd.Series, u95: pd.Series) -> go.Figure:
+    """Dotted edges of the 95 % measurement band, ``mean -/+ u95``, around the actual line.
+
+    Parameters
+    ----------
+    fig : Figure
+        A trend (:func:`trend_figure`, :func:`actual_expected_figure`); changed in place.
+    mean : Series
+        The actual's bucket means on a time index. [unit]
+    u95 : Series
+        Expanded (95 %) measurement uncertainty of the same metric (bucket means of the
+        API's ``u95_<metric>``); aligned on ``mean``'s index. [unit]
+    """
+    u = u95.reindex(mean.index)
+    name = "95 % measurement band"
+    for i, edge in enumerate((mean - u, mean + u)):
+        fig.add_trace(
+            go.Scatter(
+                x=_x(edge.index),
+                y=edge.to_numpy(),
+                mode="lines",
+                line={"color": TIDE, "width": 1, "dash": "dot"},
+                name=name,
+                legendgroup=name,
+                showlegend=i == 0,
+                hoverinfo="skip",
+            )
+        )
+    return fig
+
+
 def actual_expected_figure(
     actual: pd.DataFrame,
     *,

@@ -53,6 +53,16 @@ DEFAULT_METRIC = "eta_1"
 HIDDEN = {"display": "none"}
 EXTRAPOLATED = "Outside the baseline's range"
 HIDDEN_METRICS = {FLAGS_METRIC, STEADY_METRIC}
+BAND_PREFIX = "u95_"
+"""The API's expanded (95 %) measurement uncertainty of a metric (issue 10)."""
+UNCERTAINTY_PREFIXES = (
+    "u_",
+    "u_random_",
+    BAND_PREFIX,
+    "drift_significant_",
+    "drift_rel_significant_",
+)
+"""Per-metric uncertainty columns: drawn with their metric, not offered on their own."""
 GRAPH_CONFIG = {
     "displaylogo": False,
     "responsive": True,
@@ -172,7 +182,9 @@ def metric_options(context: UnitContext) -> list[dict[str, str]]:
     options = [
         {"label": fmt.metric_label(r["name"], r.get("label")), "value": r["name"]}
         for r in context.results
-        if r["name"] not in HIDDEN_METRICS and not is_baseline_column(r["name"], names)
+        if r["name"] not in HIDDEN_METRICS
+        and not is_baseline_column(r["name"], names)
+        and not _is_uncertainty_column(r["name"], names)
     ]
     options.sort(
         key=lambda o: (
@@ -223,7 +235,7 @@ class Fetched:
 
 async def _fetch(client, context, metric, start, end, points) -> Fetched:
     names = _names(context)
-    own = [metric] + [m for m in (FLAGS_METRIC, STEADY_METRIC) if m in names]
+    own = [metric] + [m for m in (FLAGS_METRIC, STEADY_METRIC, BAND_PREFIX + metric) if m in names]
     wanted = [m for m in baseline_metrics(metric).values() if m in names]
 
     async def baseline() -> Results | None:
@@ -251,6 +263,10 @@ async def _fetch(client, context, metric, start, end, points) -> Fetched:
         decision_interval(),
     )
     return Fetched(results, base, h)
+
+
+def _is_uncertainty_column(name: str, names: set[str]) -> bool:
+    return any(name.startswith(p) and name[len(p) :] in names for p in UNCERTAINTY_PREFIXES)
 
 
 def _names(context: UnitContext) -> set[str]:
@@ -329,6 +345,9 @@ def render(
         expected_high=high,
         spans=spans,
     )
+    if own.has(BAND_PREFIX + metric):
+        band = _shown(own, BAND_PREFIX + metric, metric, si_unit, choice.system, zone)
+        figures.add_measurement_band(main, actual["mean"], band)
     main.update_layout(uirevision=f"{context.slug}-{metric}-{start.isoformat()}")
     drift, cusum, note = _baseline_figures(
         fetched.decision_interval, base, names, metric, name, si_unit, choice.system, zone, x_title

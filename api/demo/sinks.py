@@ -71,9 +71,9 @@ def columnar_batches(
             if missing.all():
                 continue
             if missing.any():  # JSON null for "no reading", set by numpy, not per value
-                values = column.astype(object)
-                values[missing] = None
-                series[name] = values.tolist()
+                with_gaps = column.astype(object)
+                with_gaps[missing] = None
+                series[name] = with_gaps.tolist()
             else:
                 series[name] = column.tolist()
         yield {"plant": plant, "times": times[lo : lo + per_batch].tolist(), "series": series}

@@ -214,3 +214,22 @@ def _fresh_settings():
     get_settings.cache_clear()
     yield
     get_settings.cache_clear()
+
+
+def test_columnar_batches_with_gaps_span_several_batches_intact() -> None:
+    # A gap (NaN) in one tag of the first batch must not disturb the batches after it:
+    # every value comes back exactly once, gaps as null.
+    import numpy as np
+    import pandas as pd
+
+    from api.demo.sinks import columnar_batches
+
+    index = pd.Index(np.arange(10, dtype=np.int64) * 60_000, name="t_ms")
+    frame = pd.DataFrame({"A": np.arange(10.0), "B": np.arange(10.0) + 100}, index=index)
+    frame.loc[60_000, "A"] = np.nan
+    batches = list(columnar_batches("p", frame, batch_readings=6))
+    assert [len(b["times"]) for b in batches] == [3, 3, 3, 1]
+    a = [v for b in batches for v in b["series"]["A"]]
+    b_values = [v for b in batches for v in b["series"]["B"]]
+    assert a == [0.0, None, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0, 9.0]
+    assert b_values == [100.0 + i for i in range(10)]

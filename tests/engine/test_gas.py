@@ -93,7 +93,7 @@ def test_flue_gas_and_air_per_kg_against_gri30(gri30, excess_air):
 
 @pytest.mark.parametrize("species", ["SO2", "H2S", "C4H10"])
 def test_species_not_in_gri30_match_the_tm4513_file(species):
-    # Cantera's nasa_gas.yaml carries the same TM-4513 fits: a transcription check (1e-9).
+    # Cantera's nasa_gas.yaml carries the same TM-4513 fits: a check of our copied digits (1e-9).
     name = {"C4H10": "C4H10,n-butane"}.get(species, species)
     ref = {s.name: s for s in ct.Species.list_from_file("nasa_gas.yaml")}[name]
     for t in (300.0, 700.0, 1500.0):

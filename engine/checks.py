@@ -24,6 +24,8 @@ from enum import IntFlag
 
 import numpy as np
 
+from engine.catalogue import Parameter
+
 
 class Flag(IntFlag):
     """Bits of the integer ``flags`` result column (stable: stored in the database)."""
@@ -198,3 +200,34 @@ def balance_open(relative_error, tolerance) -> np.ndarray:
     """
     with np.errstate(invalid="ignore"):
         return _bits(np.abs(_float_1d(relative_error)) > tolerance, Flag.ENERGY_BALANCE_OPEN)
+
+
+SGEN_TOLERANCE = 0.01
+"""Default relative tolerance of NEGATIVE_ENTROPY_GENERATION, as a fraction of a unit's
+exergy scale (its exergy input over T0). [-]
+
+Our choice (no published value): 1 % of the exergy input is below the combined
+uncertainty of an efficiency from plant instruments, so a flag means the measurements
+are inconsistent, not merely uncertain.
+"""
+
+
+def sgen_tolerance_parameter(scale: str) -> Parameter:
+    """The ``sgen_tolerance`` parameter every kind declares, with its own scale in words.
+
+    Parameters
+    ----------
+    scale : str
+        What the tolerance multiplies, e.g. ``"fuel exergy / T0"``. [-]
+    """
+    return Parameter(
+        "sgen_tolerance",
+        "1",
+        SGEN_TOLERANCE,
+        description=(
+            f"Negative entropy generation is flagged below -sgen_tolerance * {scale}. "
+            "Default 0.01, our choice."
+        ),
+        minimum=0.0,
+        maximum=1.0,
+    )

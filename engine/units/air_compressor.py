@@ -92,9 +92,7 @@ ENERGY_BALANCE_TOLERANCE = 0.05
 temperature may exceed the electric input before ENERGY_BALANCE_OPEN. [-]
 Our choice: about the combined uncertainty of power, flow and temperature."""
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
-electric input over T0. [-] Our choice, as for the boiler."""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 ISENTROPIC_TOLERANCE = 1e-6
 """Default margin above 1 before ISENTROPIC_ABOVE_ONE. [-] Our choice: above round-off."""
@@ -210,17 +208,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * electric "
-            "power / T0. Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("electric power / T0"),
     Parameter(
         "isentropic_tolerance",
         "1",

@@ -41,9 +41,7 @@ bound: 0, i.e. net equals gross until the plant says otherwise. [-]"""
 HOT_RESERVOIR_NOT_SET = 0.0
 """Value of ``hot_reservoir_temperature_k`` meaning "not configured". [K]"""
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the fuel
-exergy over T0. Our choice, as for the boiler. [-]"""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 _T_MIN_K = 273.15  # below the freezing point a steam temperature is surely not in kelvin
 
@@ -97,17 +95,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=3000.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * fuel exergy / T0. "
-            "Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("fuel exergy / T0"),
 )
 
 RESULTS: tuple[ResultColumn, ...] = (

@@ -58,14 +58,7 @@ Common practice: about twice the ~1 % uncertainty of a plant-grade feedwater or 
 flow meter; two such meters disagree by up to ~2 % without either being faulty.
 """
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
-exergy supplied (the fuel exergy; plus the air's with the flue-gas roles bound) over T0. [-]
-
-Our choice (no published value): 1 % of the fuel exergy is below the combined
-uncertainty of a direct-method efficiency from plant instruments, so a flag means the
-measurements are inconsistent, not merely uncertain.
-"""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 KIND_NAME = "boiler"
 
@@ -172,17 +165,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * exergy supplied "
-            "/ T0. Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("exergy supplied / T0"),
     *indirect.PARAMETERS,
 )
 

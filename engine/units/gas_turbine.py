@@ -121,9 +121,7 @@ Our choice: about the combined uncertainty of a compressor-inlet air-flow measur
 about 60 % of the heat input.
 """
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the fuel
-exergy over T0. [-] Our choice, as for the boiler."""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 ISENTROPIC_TOLERANCE = 1e-6
 """Default margin above 1 before ISENTROPIC_ABOVE_ONE. [-] Our choice: above round-off."""
@@ -257,17 +255,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * fuel exergy / "
-            "T0. Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("fuel exergy / T0"),
     Parameter(
         "isentropic_tolerance",
         "1",

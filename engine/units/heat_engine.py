@@ -50,13 +50,7 @@ usually metered by heat meters or fuel flow times heating value, each uncertain 
 few percent, so 5 % of the heat input is about their combined uncertainty.
 """
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
-reversible work over T_c (the entropy generation if all of it were lost). [-]
-
-Our choice, as for the boiler: 1 % is below the uncertainty of the heat measurements,
-so a flag means the measurements are inconsistent, not merely uncertain.
-"""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 CARNOT_ROUND_OFF = 1e-12
 """Margin above the Carnot limit before ABOVE_CARNOT, so that an engine at the limit
@@ -102,17 +96,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * reversible "
-            "work / T_c. Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("reversible work / T_c"),
 )
 
 RESULTS: tuple[ResultColumn, ...] = (

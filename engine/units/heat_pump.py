@@ -100,10 +100,7 @@ The heat-balance criterion of AHRI 550/590 for a chiller test, 5 % (from memory)
 plant instruments are rarely better than test-stand ones.
 """
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
-electric input over T0 (the entropy generation if all of it were destroyed). [-]
-Our choice, as for the boiler."""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 ISENTROPIC_TOLERANCE = 1e-6
 """Default margin above 1 before ISENTROPIC_ABOVE_ONE for the compressor. [-]
@@ -246,17 +243,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * electric "
-            "power / T0. Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("electric power / T0"),
     Parameter(
         "isentropic_tolerance",
         "1",

@@ -121,9 +121,7 @@ MASS_BALANCE_TOLERANCE = 0.02
 """Default largest relative water mass-balance error before ENERGY_BALANCE_OPEN. [-]
 Common practice, as for the boiler."""
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
-exergy supplied over T0. [-] Our choice, as for the boiler."""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 CARNOT_ROUND_OFF = 1e-12
 """Margin on eta_2 and the effectiveness above 1 before ABOVE_CARNOT (round-off only). [-]"""
@@ -292,17 +290,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * exergy_in_w / "
-            "T0. Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("exergy_in_w / T0"),
 )
 
 TEXT_PARAMETERS: tuple[TextParameter, ...] = (

@@ -83,14 +83,7 @@ flow and generator-output measurements in the steam's enthalpy drop; only checka
 when every port's enthalpy is measured.
 """
 
-SGEN_TOLERANCE = 0.01
-"""Default relative tolerance for NEGATIVE_ENTROPY_GENERATION, as a fraction of the
-exergy drop of the steam over T0. [-]
-
-Our choice (no published value), the same as the boiler's: 1 % of the exergy drop is
-below the combined uncertainty of flow and output, so a flag means the measurements
-are inconsistent, not merely uncertain.
-"""
+SGEN_TOLERANCE = checks.SGEN_TOLERANCE
 
 ISENTROPIC_TOLERANCE = 1e-6
 """Default margin above 1 before ISENTROPIC_ABOVE_ONE. [-]
@@ -220,17 +213,7 @@ PARAMETERS: tuple[Parameter, ...] = (
         minimum=0.0,
         maximum=1.0,
     ),
-    Parameter(
-        "sgen_tolerance",
-        "1",
-        SGEN_TOLERANCE,
-        description=(
-            "Negative entropy generation is flagged below -sgen_tolerance * exergy_in_w / T0. "
-            "Default 0.01, our choice."
-        ),
-        minimum=0.0,
-        maximum=1.0,
-    ),
+    checks.sgen_tolerance_parameter("exergy_in_w / T0"),
     Parameter(
         "energy_balance_tolerance",
         "1",

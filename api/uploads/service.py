@@ -98,7 +98,9 @@ def create_upload(
     outcome, units = UpsertOutcome(), []
     readings = parsed.readings
     if store and len(readings):
-        ids = np.array([tags[name].id for name in readings["tag"]], dtype=np.int32)
+        # Once per tag, not per reading: a shift log can carry a million cells.
+        tag_ids = {name: t.id for name, t in tags.items()}
+        ids = readings["tag"].map(tag_ids).to_numpy(dtype=np.int32)
         outcome = upsert_readings(
             session,
             ids,

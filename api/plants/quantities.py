@@ -8,9 +8,6 @@ from api import measure
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
 
-CANONICAL_SI = ("Pa", "K", "kg/s", "m^3/s", "W", "J/kg", "J/(kg K)", "J", "kg", "kg/m^3", "s", "1")
-"""SI units a tag that feeds no role is stored in, chosen by its dimension."""
-
 
 def to_si_number(
     value: float | str, si_unit: str, *, number_unit: str | None = None, atmosphere_pa: float
@@ -31,13 +28,3 @@ def to_si_number(
             raise ValueError(f"{value!r} is not '<number> <unit>'")
         number, unit = float(match.group(1)), match.group(2) or number_unit or si_unit
     return float(measure.to_si(number, unit, si_unit, atmosphere_pa))
-
-
-def canonical_si_unit(unit_text: str) -> str:
-    """The SI unit lostwork stores a quantity written in ``unit_text`` in."""
-    dims = measure.parse_unit(unit_text).dimensionality
-    for candidate in CANONICAL_SI:
-        if measure.parse_unit(candidate).dimensionality == dims:
-            return candidate
-    base = measure.ureg.Quantity(1.0, measure.parse_unit(unit_text)).to_base_units().units
-    return f"{base:~C}"

@@ -40,7 +40,7 @@ from api.core.problems import InvalidInput, NotFound
 from api.plants.fileformat import FuelSpec, PlantFile, TagSpec
 from api.plants.fuels import fuel_properties
 from api.plants.models import Fuel, Plant, Tag, Unit, UnitBinding
-from api.plants.quantities import canonical_si_unit, to_si_number
+from api.plants.quantities import to_si_number
 from api.readings.dirty import align, mark_units_dirty, reading_range
 from api.results.models import ResultValue
 from api.results.store import delete_results
@@ -270,7 +270,7 @@ def _resolve(
     for name, tag in doc.tags.items():
         if not tag_ok.get(name):
             continue
-        si = tag_si.get(name) or canonical_si_unit(tag.unit)
+        si = tag_si.get(name) or measure.si_unit_for(tag.unit)
         columns[name] = _tag_columns(name, tag, si, atmosphere, err)
 
     if errors:

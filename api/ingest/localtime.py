@@ -133,7 +133,11 @@ def parse_times(cells: pd.Series, zone: str, keys: np.ndarray, rows: np.ndarray)
             }
         ).apply(pd.to_numeric, errors="coerce")
         stamp = pd.to_datetime(components, errors="coerce")
-        valid = stamp.notna().to_numpy() & matched
+        # pandas rolls 25:00 into the next day and 01:62 into 02:02; a clock never shows them.
+        on_clock = (
+            (components["hour"] <= 23) & (components["minute"] <= 59) & (components["second"] <= 59)
+        ).to_numpy()
+        valid = stamp.notna().to_numpy() & matched & on_clock
         whole = stamp.to_numpy().astype("datetime64[ns]").view(np.int64)
         fraction = pd.to_numeric(parts["F"].fillna("0").str.ljust(9, "0")).to_numpy(np.int64)
         naive[rest] = np.where(valid, whole + fraction, NAT)

@@ -711,3 +711,13 @@ def test_mixed_time_formats_in_one_column():
         0.05: utc_ms(2026, 7, 1, 5, 0) + 500,
         0.06: utc_ms(2026, 7, 1, 22, 0),  # midnight CEST
     }
+
+
+@pytest.mark.parametrize("text", ["2026-01-05 25:00", "2026-01-05 01:62", "2026-01-05T01:30:61Z"])
+def test_a_time_off_the_clock_is_rejected_not_rolled_over(text):
+    # A clock shows 00:00:00 to 23:59:59 (ISO 8601 hour 0-23, minute and second 0-59);
+    # rolling 25:00 into the next day would put the reading on the wrong interval.
+    parsed = parse(f"time,B1 feedwater flow\n2026-01-05 01:00,1\n{text},2\n")
+    assert [(e.row, e.field, e.value) for e in parsed.errors] == [(3, "time", text)]
+    assert "is not a valid date and time of day" in parsed.errors[0].message
+    assert len(parsed.readings) == 1
